@@ -1,0 +1,100 @@
+/* coexist: one grid cell end to end (network, tasks, drive, solve, probes, classification),
+ * organised as cached stages so that cells sharing a key reuse the expensive work.
+ *
+ * Stage keys (which sweep parameter invalidates which stage; this table is the one place it is
+ * written down, and cx_cell_*_key implement it):
+ *   network  <- study seed, replicate, nodes, topology, mean degree, rewire, weight law and
+ *               scale, self loops                         (M unscaled and |lambda|max(M))
+ *   input    <- network key + task dimension, input layout (W_in, bias law)
+ *   drive    <- input key + spectral radius, model, rate, leak, input scaling, bias, features,
+ *               tasks, dt, washout, length, stride         (G_k, C_k, end states r_k(T))
+ *   solve    <- drive key + blend / weights + ridge        (W_out)
+ *   probe    <- solve key + probe and classify settings    (labels and metrics)
+ * A workspace keeps the last network and the last drive; the engine orders the cells of a work
+ * unit (one drive key) one after another so that only the solve and the probes are repeated.
+ */
+#ifndef COEXIST_CELL_H
+#define COEXIST_CELL_H
+
+#include <stdint.h>
+
+#include "coexist/config.h"
+#include "coexist/classify.h"
+#include "coexist/study.h"
+
+/* Per-cell status. Stored in cubes and journals: never renumber, only append. */
+enum cx_cell_status {
+    CX_CELL_NOT_DONE = 0,
+    CX_CELL_COMPUTED = 1,
+    CX_CELL_FAILED_NOT_PD = 2,    /* the blended Gram matrix was not positive definite */
+    CX_CELL_FAILED_NONFINITE = 3, /* the drive or readout produced non-finite values */
+    CX_CELL_FAILED_INVALID = 4,   /* the parameter combination is invalid at this grid point */
+    CX_CELL_SKIPPED = 5           /* not computed by design (refinement modes) */
+};
+const char *cx_cell_status_name(int status);
+
+/* Wall-clock seconds of each stage of the last cell (reused stages count 0). */
+typedef struct cx_cell_timing {
+    double network;
+    double drive; /* open-loop drive including the Gram accumulation */
+    double gram;  /* of which the Gram (dsyrk/dgemm) part */
+    double solve;
+    double probes;
+    double classify;
+    double total;
+} cx_cell_timing;
+
+typedef struct cx_cell_result {
+    cx_idx cell;
+    int status;  /* enum cx_cell_status */
+    int ntasks;
+    int nruns;   /* ntasks + random starts */
+    int multifunctional; /* 1 when every task's own run is reconstructed */
+    int untrained;       /* runs from random starts that found an untrained attractor */
+    double rho_unscaled; /* |lambda|max of the unscaled M */
+    double wout_norm;    /* Frobenius norm of W_out */
+    double wout_square_norm; /* Frobenius norm of the block of W_out on the squared states */
+    cx_cell_timing time;
+    cx_run_metrics runs[CX_MAX_RUNS]; /* runs 0..ntasks-1 start at the end of task k's
+                                         training; the rest are random starts */
+} cx_cell_result;
+
+/* How often each stage ran in a workspace (to prove reuse). */
+typedef struct cx_cell_counts {
+    int64_t networks;
+    int64_t spectral_radii;
+    int64_t inputs;
+    int64_t drives;
+    int64_t solves;
+    int64_t probes;
+} cx_cell_counts;
+
+typedef struct cx_cell_ws cx_cell_ws;
+int cx_cell_ws_create(cx_cell_ws **ws /* out */);
+void cx_cell_ws_destroy(cx_cell_ws **ws);
+
+/* Keep the matrices and every run's trajectory of the next cell, for cx_cell_dump. */
+void cx_cell_ws_keep(cx_cell_ws *ws, int keep);
+
+/* Compute one cell. Outcomes (not PD, diverged, ...) are statuses in *out, not errors; an error
+ * is returned only for failures of the machine or a bug (memory, I/O, LAPACK illegal argument).
+ * OUT: *out. Not collective. */
+int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell,
+                    cx_cell_result *out /* out */);
+
+void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c /* out */);
+
+/* Write the kept matrices and trajectories of the last cell to an HDF5 file (serial).
+ * Refuses to overwrite an existing file unless `overwrite`. */
+int cx_cell_dump(const cx_cell_ws *ws, const cx_cell_params *p, const cx_cell_result *r,
+                 const char *path, int overwrite);
+
+uint64_t cx_cell_network_key(const cx_cell_params *p);
+uint64_t cx_cell_input_key(const cx_cell_params *p);
+uint64_t cx_cell_drive_key(const cx_cell_params *p);
+
+/* Estimated cost of one cell in floating-point operations, and its peak memory in bytes. */
+double cx_cell_cost_flops(const cx_cell_params *p);
+double cx_cell_memory_bytes(const cx_cell_params *p);
+
+#endif

@@ -1,0 +1,119 @@
+/* coexist: reservoir models, the open-loop drive with Gram accumulation, the blended ridge
+ * readout and the closed-loop (autonomous) probe.
+ *
+ * Models:
+ *  - continuous time, dr/dt = gamma (-r + tanh(M r + sigma W_in u + b)), integrated by fixed-step
+ *    RK4 (Lu, Hunt & Ott 2018, Chaos 28, 061104);
+ *  - discrete leaky echo state, r <- (1 - a) r + a tanh(M r + sigma W_in u + b) (Jaeger 2001, GMD
+ *    Report 148; Jaeger, Lukosevicius, Popovici & Siewert 2007, Neural Netw. 20, 335).
+ * Features q(r): [r; r^2] (default; squares break the r -> -r symmetry), [r], or [r; r^2; 1].
+ * Readout: weighted ridge regression (Hoerl & Kennard 1970, Technometrics 12, 55):
+ *    W_out = (sum_k w_k^2 C_k) (sum_k w_k^2 G_k + beta I)^-1,  G_k = sum q q^T, C_k = sum u q^T.
+ */
+#ifndef COEXIST_RESERVOIR_H
+#define COEXIST_RESERVOIR_H
+
+#include "coexist/config.h"
+#include "coexist/net.h"
+
+enum cx_model { CX_MODEL_CONTINUOUS = 0, CX_MODEL_DISCRETE = 1 };
+
+enum cx_features {
+    CX_FEAT_LINEAR_SQUARES = 0,         /* [r; r^2], 2N */
+    CX_FEAT_LINEAR = 1,                 /* [r], N */
+    CX_FEAT_LINEAR_SQUARES_CONSTANT = 2 /* [r; r^2; 1], 2N + 1 */
+};
+
+/* Reservoir parameters of one cell; zero-initialise before filling. */
+typedef struct cx_res_params {
+    int model;              /* enum cx_model */
+    double spectral_radius; /* target |lambda|max of M */
+    double rate;            /* gamma, 1 / time unit (continuous) */
+    double leak;            /* a in (0, 1] (discrete) */
+    double input_scaling;   /* sigma */
+    int input_layout;       /* enum cx_input_layout */
+    double bias;            /* b_i ~ U(-bias, bias); 0 = no bias */
+    int features;           /* enum cx_features */
+} cx_res_params;
+
+/* Training parameters of one cell (times in time units of the task signals). */
+typedef struct cx_train_params {
+    double dt;      /* sample interval = RK4 step of the reservoir, or the map's time step */
+    double washout; /* driven time discarded before accumulating */
+    double length;  /* driven time accumulated into the Gram sums */
+    double ridge;   /* beta >= 0 */
+    double blend;   /* alpha in [0, 1]: w = (alpha, 1 - alpha) for two tasks */
+    int weights_listed; /* 1: use weights[] below; 0: blend for two tasks, equal for more */
+    double weights[CX_MAX_TASKS];
+    cx_idx stride;  /* accumulate every stride-th sample */
+} cx_train_params;
+
+/* Number of features for n nodes. */
+cx_idx cx_features_count(int features, cx_idx n);
+
+/* An assembled reservoir: borrowed views of the scaled M, W_in (n x dim row-major) and b. */
+typedef struct cx_reservoir {
+    cx_idx n;
+    int dim;
+    int model;
+    int features;
+    double rate;
+    double leak;
+    double input_scaling;
+    const cx_csr *m;     /* borrowed, already scaled to the target spectral radius */
+    const double *w_in;  /* borrowed */
+    const double *bias;  /* borrowed, length n, or NULL for none */
+} cx_reservoir;
+
+/* Workspace for drive and probe of one reservoir size; sized once, no allocation afterwards. */
+typedef struct cx_res_ws cx_res_ws;
+int cx_res_ws_alloc(cx_res_ws **ws /* out */, cx_idx n, int dim, int features);
+void cx_res_ws_free(cx_res_ws **ws);
+
+/* Open-loop drive by one task's signal, with Gram accumulation.
+ * u: samples of the signal at spacing dt/2 for the continuous model (u[2i] at step i, u[2i+1]
+ * at its midpoint), at spacing dt for the discrete model; (washout + train) steps are taken.
+ * After each step i >= washout with (i - washout) % stride == 0 the pair (q(r_{i+1}), u_{i+1})
+ * is accumulated: G += q q^T (upper triangle, column-major nfeat x nfeat), C += u q^T
+ * (column-major dim x nfeat). r: start state in, end state out.
+ * Not collective. */
+int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, cx_idx washout,
+                 cx_idx train, cx_idx stride, double *r, double *g /* in/out */,
+                 double *c /* in/out */);
+
+/* Outcome of a readout solve: not an error. */
+enum cx_solve_status { CX_SOLVE_OK = 0, CX_SOLVE_NOT_PD = 1, CX_SOLVE_NONFINITE = 2 };
+
+/* Blended ridge readout: A = sum w_k^2 G_k + beta I, B = sum w_k^2 C_k, W_out = B A^-1 by
+ * Cholesky. g[k], c[k] as produced by cx_res_drive. work: nfeat*nfeat + dim*nfeat doubles.
+ * OUT: w_out (dim x nfeat, column-major, ld = dim), *status. Returns CX_OK unless LAPACK saw an
+ * illegal argument. */
+int cx_readout_solve(cx_idx nfeat, int dim, int ntasks, const double *const *g,
+                     const double *const *c, const double *w, double beta, double *work,
+                     double *w_out /* out */, int *status /* out */);
+
+/* The readout y = W_out q(r). */
+void cx_res_readout(const cx_reservoir *res, const double *w_out, const double *r,
+                    double *y /* out, dim */);
+
+/* Closed loop: u = W_out q(r) fed back as the input. Takes nsteps steps of dt from r (in/out);
+ * writes y at every step i = 0..nsteps (y[0] is the readout of the start state) into
+ * y_out[(i) * dim] when y_out is not NULL. Stops early when any output is non-finite or leaves
+ * [lo, hi] (per coordinate, when lo/hi are not NULL), returning the number of steps taken in
+ * *steps_done. Not collective. */
+int cx_res_probe(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                 cx_idx nsteps, const double *lo, const double *hi, double *r,
+                 double *y_out /* out */, cx_idx *steps_done /* out */);
+
+/* Drive with a constant input point p for nsteps (for "drive-point" random starts). */
+int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *p, double dt,
+                          cx_idx nsteps, double *r);
+
+/* Largest Lyapunov exponent of the closed loop by two nearby trajectories with renormalisation
+ * every step (Benettin et al. 1980, Meccanica 15, 9), for either model. From r (in/out), `steps`
+ * steps of dt; initial separation d0 in a direction drawn from rng. OUT: *lambda (1 / time
+ * unit, i.e. per dt of time). Not collective. */
+int cx_res_lyapunov(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                    cx_idx steps, double d0, cx_rng *rng, double *r, double *lambda /* out */);
+
+#endif

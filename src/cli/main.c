@@ -1,0 +1,6 @@
+/* placeholder replaced by the CLI */
+int main(void);
+int main(void)
+{
+    return 0;
+}

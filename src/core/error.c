@@ -1,0 +1,147 @@
+/* coexist: the error trace (see include/coexist/error.h) and checked allocation. */
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coexist/error.h"
+
+#define CX_TRACE_DEPTH 32
+#define CX_TRACE_MSG   1024
+
+typedef struct cx_frame {
+    int code;
+    const char *file;
+    int line;
+    const char *func;
+    char msg[CX_TRACE_MSG];
+} cx_frame;
+
+/* Process-global by design: see the note in error.h. */
+static cx_frame trace[CX_TRACE_DEPTH];
+static int trace_len;
+
+int cx_err_push(int code, const char *file, int line, const char *func, const char *fmt, ...)
+{
+    if (trace_len < CX_TRACE_DEPTH) {
+        cx_frame *f = &trace[trace_len++];
+        f->code = code;
+        f->file = file;
+        f->line = line;
+        f->func = func;
+        f->msg[0] = '\0';
+        if (fmt != NULL) {
+            va_list ap;
+            va_start(ap, fmt);
+            vsnprintf(f->msg, sizeof f->msg, fmt, ap);
+            va_end(ap);
+        }
+    }
+    return code;
+}
+
+const char *cx_err_message(void)
+{
+    for (int i = 0; i < trace_len; i++)
+        if (trace[i].msg[0] != '\0')
+            return trace[i].msg;
+    return "";
+}
+
+int cx_err_code(void)
+{
+    return trace_len > 0 ? trace[0].code : CX_OK;
+}
+
+void cx_err_print(const char *prog, int verbose)
+{
+    int printed = 0;
+    for (int i = 0; i < trace_len; i++) {
+        const cx_frame *f = &trace[i];
+        if (f->msg[0] != '\0') {
+            fprintf(stderr, "%s: %s%s\n", prog, printed ? "  while " : "error: ", f->msg);
+            printed = 1;
+        }
+        if (verbose)
+            fprintf(stderr, "    at %s:%d (%s) [%s]\n", f->file, f->line, f->func,
+                    cx_status_name(f->code));
+    }
+    if (!printed && trace_len > 0)
+        fprintf(stderr, "%s: error: %s\n", prog, cx_status_name(trace[0].code));
+}
+
+void cx_err_clear(void)
+{
+    trace_len = 0;
+}
+
+const char *cx_status_name(int code)
+{
+    switch (code) {
+    case CX_OK:
+        return "success";
+    case CX_ERR_NOMEM:
+        return "out of memory";
+    case CX_ERR_INVALID:
+        return "invalid input";
+    case CX_ERR_IO:
+        return "input/output error";
+    case CX_ERR_HDF5:
+        return "HDF5 error";
+    case CX_ERR_MPI:
+        return "MPI error";
+    case CX_ERR_LAPACK:
+        return "LAPACK illegal argument";
+    case CX_ERR_NUMERIC:
+        return "numerical failure";
+    case CX_ERR_MISMATCH:
+        return "file belongs to a different study";
+    case CX_ERR_INTERNAL:
+        return "internal error";
+    case CX_ERR_INTERRUPTED:
+        return "interrupted";
+    default:
+        return "unknown error";
+    }
+}
+
+/* Fault injection: when the environment variable CX_FAIL_ALLOC=N is set in a build with
+ * CX_FAULT_INJECTION defined, the Nth allocation fails (SQLite's test_malloc idea). */
+#ifdef CX_FAULT_INJECTION
+static long alloc_count;
+static long alloc_fail_at = -1;
+static int alloc_fail_checked;
+
+static int alloc_should_fail(void)
+{
+    if (!alloc_fail_checked) {
+        const char *e = getenv("CX_FAIL_ALLOC");
+        alloc_fail_at = e ? strtol(e, NULL, 10) : -1;
+        alloc_fail_checked = 1;
+    }
+    return ++alloc_count == alloc_fail_at;
+}
+#else
+static int alloc_should_fail(void)
+{
+    return 0;
+}
+#endif
+
+void *cx_malloc_array(size_t n, size_t size)
+{
+    if (n == 0 || size == 0)
+        return NULL;
+    if (n > SIZE_MAX / size || alloc_should_fail())
+        return NULL;
+    return malloc(n * size);
+}
+
+void *cx_calloc_array(size_t n, size_t size)
+{
+    if (n == 0 || size == 0)
+        return NULL;
+    if (n > SIZE_MAX / size || alloc_should_fail())
+        return NULL;
+    return calloc(n, size);
+}
