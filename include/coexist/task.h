@@ -25,21 +25,27 @@ void cx_rk4_step(cx_rk4 *ws, cx_field_fn f, void *ctx, double t, double h, doubl
 /* Largest Lyapunov exponent of dx/dt = f by the two-trajectory method: integrate `transient`
  * time units, then `total` time units with the companion at distance d0, renormalising every
  * `renorm` time units. x (length n) is the start and is left at the end state. The initial
- * separation direction comes from `rng`. OUT: *lambda in 1 / time unit. */
+ * separation direction comes from `rng`. OUT: *lambda in 1 / time unit; NaN (with CX_OK) when the
+ * trajectory leaves the finite range or the separation collapses below round-off (d0 is an
+ * absolute distance: keep it well above |x| * 1e-16). Allocates once, not per step. */
 int cx_lyapunov_max(cx_field_fn f, void *ctx, cx_idx n, double *x, double h, double transient,
                     double total, double renorm, double d0, cx_rng *rng, double *lambda /* out */);
 
 /* Built-in three-dimensional flows with their standard parameters. */
 enum cx_flow {
-    CX_FLOW_LORENZ = 0,    /* Lorenz 1963, J. Atmos. Sci. 20, 130: sigma, rho, beta = 10, 28, 8/3 */
-    CX_FLOW_ROSSLER = 1,   /* Rossler 1976, Phys. Lett. A 57, 397: a, b, c = 0.2, 0.2, 5.7 */
-    CX_FLOW_CHEN = 2,      /* Chen & Ueta 1999, Int. J. Bifurc. Chaos 9, 1465: a, b, c = 35, 3, 28 */
-    CX_FLOW_THOMAS = 3,    /* Thomas 1999, Int. J. Bifurc. Chaos 9, 1889: b = 0.208186 */
-    CX_FLOW_HALVORSEN = 4, /* Halvorsen, in Sprott 2010 "Elegant Chaos": a = 1.89 */
+    CX_FLOW_LORENZ = 0,  /* Lorenz 1963, J. Atmos. Sci. 20, 130: sigma, rho, beta = 10, 28, 8/3 */
+    CX_FLOW_ROSSLER = 1, /* Rossler 1976, Phys. Lett. A 57, 397: a, b, c = 0.2, 0.2, 5.7 */
+    CX_FLOW_CHEN = 2,    /* Chen & Ueta 1999, Int. J. Bifurc. Chaos 9, 1465: a, b, c = 35, 3, 28 */
+    CX_FLOW_THOMAS = 3,  /* Thomas 1999, Int. J. Bifurc. Chaos 9, 1889: b = 0.208186 (onset of
+                            chaos: largest exponent ~ 0.005-0.01) */
+    CX_FLOW_HALVORSEN = 4, /* Halvorsen, in Sprott 2010 "Elegant Chaos": a = 1.27 */
     CX_FLOW_AIZAWA = 5,    /* Aizawa, in Langford 1984: a..f = 0.95, 0.7, 0.6, 3.5, 0.25, 0.1 */
     CX_FLOW_SPROTT_B = 6,  /* Sprott 1994, Phys. Rev. E 50, R647, case B */
-    CX_FLOW_SPROTT_JERK = 7, /* Sprott 1997, Phys. Lett. A 228, 271: x''' + A x'' - x'^2 + x = 0, A = 2.017 */
-    CX_FLOW_CHUA = 8,      /* Chua circuit, dimensionless (Matsumoto, Chua & Komuro 1985): alpha 15.6, beta 28, m0 -8/7, m1 -5/7 */
+    /* Sprott 1997, Phys. Lett. A 228, 271: x''' + A x'' - x'^2 + x = 0, A = 2.017 */
+    CX_FLOW_SPROTT_JERK = 7,
+    /* Chua circuit, dimensionless (Matsumoto, Chua & Komuro 1985): alpha 15.6, beta 28,
+     * m0 -8/7, m1 -5/7 */
+    CX_FLOW_CHUA = 8,
     CX_FLOW_COUNT = 9
 };
 
@@ -69,14 +75,18 @@ enum cx_task_kind {
 /* One task, fully bound (no axis references left). Zero-initialise before filling. Transforms
  * are applied to the raw signal in this order: scale (about the origin), rotate (about the
  * origin, in the plane of the first two coordinates), mirror (u -> -u), shift; time reversal
- * traverses the same set backwards. */
+ * traverses the same set backwards (cycles: w -> -w; flows and files: the forward samples in
+ * reverse order).
+ * Zero means "not set": scale 0 = 1, ellipticity 0 = 1 (a circle), inner_dt 0 = 0.001, dim 0 =
+ * 2 for a cycle and 3 for a flow. A file task's dim must equal the file's width
+ * (cx_task_file_shape); files start at their first row (transient is not used for them). */
 typedef struct cx_task_spec {
     char name[CX_NAME_LEN];
     int kind; /* enum cx_task_kind */
     int dim;  /* 2 for cycles, 3 for flows, the file's width for files */
     /* cycle: x = c + R (cos(w t + phase), e sin(w t + phase)); w's sign is the rotation sense
      * (positive = anticlockwise in the first two coordinates), e = ellipticity (minor/major). */
-    double centre[CX_MAX_DIM];
+    double centre[CX_MAX_DIM]; /* coordinates 3.. of a cycle with dim > 2 stay at the centre's */
     double radius;
     double speed;
     double ellipticity;
@@ -85,18 +95,19 @@ typedef struct cx_task_spec {
     int flow;
     double par[CX_MAX_FLOW_PAR];
     double x0[3];
-    double transient;  /* time units discarded before the series starts */
-    double inner_dt;   /* RK4 step used to integrate the flow; the series is sampled from it */
+    double transient; /* time units discarded before the series starts */
+    double inner_dt;  /* RK4 step used to integrate the flow; the series is sampled from it */
     /* file */
     char path[CX_PATH_LEN];
     char dataset[CX_NAME_LEN]; /* HDF5 dataset path; empty for CSV */
-    double file_dt;            /* sample interval of the file */
+    double file_dt;            /* sample interval of the file; 0 for HDF5 = the dataset's
+                                  "sample_interval" attribute */
     /* transforms */
-    double scale;              /* 1 = none */
-    double rotate;             /* radians */
-    int mirror;                /* 1 = u -> -u */
+    double scale;  /* 1 = none */
+    double rotate; /* radians */
+    int mirror;    /* 1 = u -> -u */
     double shift[CX_MAX_DIM];
-    int reverse;               /* 1 = time reversal */
+    int reverse; /* 1 = time reversal */
 } cx_task_spec;
 
 /* Sample a task: out[i*dim + j] = u_j(t0 + i*h), i = 0..n-1, with t0 the start of the series
@@ -117,14 +128,18 @@ enum cx_family_kind {
 };
 
 /* A family for capacity studies: it expands into `count` tasks. `spacing` is what the overlap
- * axis binds to. Rotation: senses[i] = +1 or -1 per cycle; alternate = 1 fills +1, -1, +1, ... */
+ * axis binds to. Rotation: senses[i] = +1 or -1 per cycle (0 = +1); alternate = 1 fills +1, -1,
+ * +1, ...; a copy's speed is sense * |base.speed|. Senses do not apply to flow families. Only the
+ * coordinates a kind places are overwritten (centre x, or centre x and y on the ring, or shift x);
+ * the template's other centre/shift coordinates are kept. A flow family's template may also be a
+ * file task. */
 typedef struct cx_family_spec {
     int kind;
     int count;
     double spacing;
     int alternate;
     int senses[CX_MAX_TASKS];
-    cx_task_spec base; /* cycle or flow template; its centre/shift are overwritten per copy */
+    cx_task_spec base; /* cycle or flow template; see above for what is overwritten per copy */
 } cx_family_spec;
 
 /* Expand a family into tasks named "<base.name>-<i>". OUT: tasks[0..count-1]. */

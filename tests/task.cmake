@@ -1,0 +1,1 @@
+cx_add_test(NAME test_task SOURCES test_task.c LABELS unit TIMEOUT 120)
