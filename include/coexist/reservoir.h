@@ -69,16 +69,19 @@ typedef struct cx_reservoir {
 typedef struct cx_res_ws cx_res_ws;
 int cx_res_ws_alloc(cx_res_ws **ws /* out */, cx_idx n, int dim, int features);
 void cx_res_ws_free(cx_res_ws **ws);
+/* Number of feature vectors buffered between two Gram updates (default 192); reallocates the
+ * block, so call it outside any loop. Results agree for every block size up to rounding. */
+int cx_res_ws_set_block(cx_res_ws *ws, cx_idx block);
 
 /* Open-loop drive by one task's signal, with Gram accumulation.
  * u: samples of the signal at spacing dt/2 for the continuous model (u[2i] at step i, u[2i+1]
  * at its midpoint), at spacing dt for the discrete model; (washout + train) steps are taken.
  * After each step i >= washout with (i - washout) % stride == 0 the pair (q(r_{i+1}), u_{i+1})
  * is accumulated: G += q q^T (upper triangle, column-major nfeat x nfeat), C += u q^T
- * (column-major dim x nfeat). r: start state in, end state out.
- * Not collective. */
-int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, cx_idx washout,
-                 cx_idx train, cx_idx stride, double *r, double *g /* in/out */,
+ * (column-major dim x nfeat). r: start state in, end state out. dt: the RK4 step (ignored by
+ * the discrete model). Not collective. */
+int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, double dt,
+                 cx_idx washout, cx_idx train, cx_idx stride, double *r, double *g /* in/out */,
                  double *c /* in/out */);
 
 /* Outcome of a readout solve: not an error. */
@@ -100,7 +103,9 @@ void cx_res_readout(const cx_reservoir *res, const double *w_out, const double *
  * writes y at every step i = 0..nsteps (y[0] is the readout of the start state) into
  * y_out[(i) * dim] when y_out is not NULL. Stops early when any output is non-finite or leaves
  * [lo, hi] (per coordinate, when lo/hi are not NULL), returning the number of steps taken in
- * *steps_done. Not collective. */
+ * *steps_done: rows 0..*steps_done are written (on an early stop the last of them is the
+ * offending output; 0 when the start readout already is), later rows are left untouched, and r
+ * holds the state of row *steps_done. Not collective. */
 int cx_res_probe(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
                  cx_idx nsteps, const double *lo, const double *hi, double *r,
                  double *y_out /* out */, cx_idx *steps_done /* out */);
@@ -112,7 +117,8 @@ int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *
 /* Largest Lyapunov exponent of the closed loop by two nearby trajectories with renormalisation
  * every step (Benettin et al. 1980, Meccanica 15, 9), for either model. From r (in/out), `steps`
  * steps of dt; initial separation d0 in a direction drawn from rng. OUT: *lambda (1 / time
- * unit, i.e. per dt of time). Not collective. */
+ * unit, i.e. per dt of time); NaN when a trajectory became non-finite, -inf when the two merged
+ * to the last bit. Not collective. */
 int cx_res_lyapunov(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
                     cx_idx steps, double d0, cx_rng *rng, double *r, double *lambda /* out */);
 

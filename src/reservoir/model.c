@@ -1,0 +1,334 @@
+/* coexist: the reservoir models, their workspace, the feature map and the readout.
+ *
+ * Continuous time (Lu, Hunt & Ott 2018, Chaos 28, 061104):
+ *     dr/dt = f(r; u) = gamma (-r + tanh(M r + sigma W_in u + b)),
+ * advanced by the classical fourth-order Runge-Kutta method (Kutta 1901, Z. Math. Phys. 46, 435;
+ * Hairer, Norsett & Wanner 1993, Solving ODEs I, table II.1.1):
+ *     k1 = f(r; u_n), k2 = f(r + h/2 k1; u_{n+1/2}), k3 = f(r + h/2 k2; u_{n+1/2}),
+ *     k4 = f(r + h k3; u_{n+1}),  r <- r + h/6 (k1 + 2 k2 + 2 k3 + k4).
+ * Discrete leaky echo state network (Jaeger 2001, GMD Report 148; Jaeger, Lukosevicius, Popovici
+ * & Siewert 2007, Neural Netw. 20, 335):
+ *     r <- (1 - a) r + a tanh(M r + sigma W_in u + b).
+ * Closed loop (Jaeger 2001; Lu, Hunt & Ott 2018): u = W_out q(x) is recomputed at every state the
+ * right-hand side is evaluated at, including the RK4 stage states. W_in W_out is never formed: it
+ * would be an n x n dense matrix, while the product through q costs O(n dim).
+ *
+ * Each right-hand side evaluation is one pass over the nodes that computes the pre-activation
+ * s_i = b_i + (sigma W_in u)_i + sum_j M_ij x_j, its tanh, the stage update and, in the closed
+ * loop, the readout of the new stage state: a state vector is read and written once per stage.
+ */
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coexist/error.h"
+#include "reservoir/reservoir_impl.h"
+
+/* Default number of feature vectors buffered before one rank-B update of the Gram sums:
+ * large enough that dsyrk runs near its peak rate, small enough that the block
+ * (2n x B doubles) stays in the outer cache levels for the usual n. */
+#define CX_RES_DEFAULT_BLOCK 192
+
+cx_idx cx_features_count(int features, cx_idx n)
+{
+    switch (features) {
+    case CX_FEAT_LINEAR_SQUARES:
+        return 2 * n;
+    case CX_FEAT_LINEAR:
+        return n;
+    case CX_FEAT_LINEAR_SQUARES_CONSTANT:
+        return 2 * n + 1;
+    default:
+        return -1;
+    }
+}
+
+static int alloc_block(cx_res_ws *ws, cx_idx block)
+{
+    int rc = CX_OK;
+    double *q = NULL, *u = NULL;
+    CX_ALLOC(q, ws->nfeat * block);
+    CX_ALLOC(u, (cx_idx)ws->dim * block);
+    free(ws->qblk);
+    free(ws->ublk);
+    ws->qblk = q;
+    ws->ublk = u;
+    ws->block = block;
+    q = NULL;
+    u = NULL;
+done:
+    free(u);
+    free(q);
+    return rc;
+}
+
+int cx_res_ws_alloc(cx_res_ws **out, cx_idx n, int dim, int features)
+{
+    int rc = CX_OK;
+    cx_res_ws *ws = NULL;
+    CX_REQUIRE(out != NULL, CX_ERR_INVALID, "reservoir workspace: no output pointer");
+    *out = NULL;
+    CX_REQUIRE(n >= 1, CX_ERR_INVALID, "reservoir workspace: %lld nodes", (long long)n);
+    CX_REQUIRE(dim >= 1 && dim <= CX_MAX_DIM, CX_ERR_INVALID,
+               "reservoir workspace: signal dimension %d outside 1..%d", dim, CX_MAX_DIM);
+    CX_REQUIRE(cx_features_count(features, n) > 0, CX_ERR_INVALID,
+               "reservoir workspace: unknown feature map %d", features);
+    CX_REQUIRE(n <= INT32_MAX / 4, CX_ERR_INVALID, "reservoir workspace: %lld nodes is too many",
+               (long long)n);
+    CX_CALLOC(ws, 1);
+    ws->n = n;
+    ws->dim = dim;
+    ws->features = features;
+    ws->nfeat = cx_features_count(features, n);
+    CX_CALLOC(ws->xa, n);
+    CX_CALLOC(ws->xb, n);
+    CX_CALLOC(ws->acc, n);
+    CX_CALLOC(ws->r2, n);
+    CX_CALLOC(ws->bias, n);
+    CX_CALLOC(ws->win, n * dim);
+    CX_CALLOC(ws->inw, n);
+    CX_CALLOC(ws->incol, n);
+    CX_TRY(alloc_block(ws, CX_RES_DEFAULT_BLOCK));
+    *out = ws;
+    ws = NULL;
+done:
+    cx_res_ws_free(&ws);
+    return rc;
+}
+
+void cx_res_ws_free(cx_res_ws **pws)
+{
+    if (pws == NULL || *pws == NULL)
+        return;
+    cx_res_ws *ws = *pws;
+    free(ws->ublk);
+    free(ws->qblk);
+    free(ws->incol);
+    free(ws->inw);
+    free(ws->win);
+    free(ws->bias);
+    free(ws->r2);
+    free(ws->acc);
+    free(ws->xb);
+    free(ws->xa);
+    free(ws);
+    *pws = NULL;
+}
+
+int cx_res_ws_set_block(cx_res_ws *ws, cx_idx block)
+{
+    int rc = CX_OK;
+    CX_REQUIRE(ws != NULL, CX_ERR_INVALID, "reservoir workspace: NULL");
+    CX_REQUIRE(block >= 1 && block <= 65536, CX_ERR_INVALID,
+               "Gram block size %lld outside 1..65536", (long long)block);
+    if (block != ws->block)
+        CX_TRY(alloc_block(ws, block));
+done:
+    return rc;
+}
+
+int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res)
+{
+    int rc = CX_OK;
+    CX_REQUIRE(ws != NULL && res != NULL, CX_ERR_INVALID, "reservoir: NULL workspace or model");
+    CX_REQUIRE(res->n == ws->n && res->dim == ws->dim && res->features == ws->features,
+               CX_ERR_INVALID,
+               "reservoir (n %lld, dim %d, features %d) does not fit its workspace (n %lld, dim "
+               "%d, features %d)",
+               (long long)res->n, res->dim, res->features, (long long)ws->n, ws->dim, ws->features);
+    CX_REQUIRE(res->m != NULL && res->m->n == res->n && res->w_in != NULL, CX_ERR_INVALID,
+               "reservoir: missing or mis-sized M or W_in");
+    CX_REQUIRE(res->model == CX_MODEL_CONTINUOUS || res->model == CX_MODEL_DISCRETE, CX_ERR_INVALID,
+               "reservoir: unknown model %d", res->model);
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const double sigma = res->input_scaling;
+    int onehot = 1;
+    for (cx_idx i = 0; i < n; i++) {
+        int nz = 0;
+        cx_idx col = 0;
+        for (int j = 0; j < dim; j++) {
+            double w = res->w_in[i * dim + j];
+            ws->win[i * dim + j] = sigma * w;
+            if (w != 0.0) {
+                nz++;
+                col = j;
+            }
+        }
+        if (nz > 1)
+            onehot = 0;
+        ws->incol[i] = col;
+        ws->inw[i] = sigma * res->w_in[i * dim + col];
+        ws->bias[i] = res->bias != NULL ? res->bias[i] : 0.0;
+    }
+    ws->onehot = onehot;
+done:
+    return rc;
+}
+
+void cx_res_features_of(const cx_res_ws *ws, const double *restrict r, double *restrict q)
+{
+    const cx_idx n = ws->n;
+    for (cx_idx i = 0; i < n; i++)
+        q[i] = r[i];
+    if (ws->features == CX_FEAT_LINEAR)
+        return;
+    for (cx_idx i = 0; i < n; i++)
+        q[n + i] = r[i] * r[i];
+    if (ws->features == CX_FEAT_LINEAR_SQUARES_CONSTANT)
+        q[2 * n] = 1.0;
+}
+
+/* Pre-activation of node i at state x under input u. */
+static inline double preact(const cx_res_ws *restrict ws, const cx_csr *restrict m,
+                            const double *restrict x, const double *restrict u, cx_idx i)
+{
+    double s = ws->bias[i];
+    if (ws->onehot) {
+        s += ws->inw[i] * u[ws->incol[i]];
+    } else {
+        const double *w = ws->win + i * ws->dim;
+        for (int j = 0; j < ws->dim; j++)
+            s += w[j] * u[j];
+    }
+    const cx_idx *restrict col = m->col;
+    const double *restrict val = m->val;
+    const cx_idx end = m->rowptr[i + 1];
+    for (cx_idx p = m->rowptr[i]; p < end; p++)
+        s += val[p] * x[col[p]];
+    return s;
+}
+
+/* Add node i's share of W_out q(x) to y, x_i = v. The order (node by node, linear term then
+ * square) is the one cx_res_readout uses, so that both give the same bits. */
+static inline void readout_add(const double *restrict w_out, cx_idx n, int dim, int features,
+                               cx_idx i, double v, double *restrict y)
+{
+    const double *wl = w_out + i * dim;
+    if (features == CX_FEAT_LINEAR) {
+        for (int j = 0; j < dim; j++)
+            y[j] += wl[j] * v;
+    } else {
+        const double *wq = w_out + (n + i) * dim;
+        const double v2 = v * v;
+        for (int j = 0; j < dim; j++)
+            y[j] += wl[j] * v + wq[j] * v2;
+    }
+}
+
+static inline void readout_finish(const double *restrict w_out, cx_idx n, int dim, int features,
+                                  double *restrict y)
+{
+    if (features == CX_FEAT_LINEAR_SQUARES_CONSTANT)
+        for (int j = 0; j < dim; j++)
+            y[j] += w_out[2 * n * dim + j];
+}
+
+void cx_res_readout(const cx_reservoir *res, const double *w_out, const double *r, double *y)
+{
+    const cx_idx n = res->n;
+    const int dim = res->dim;
+    double acc[CX_MAX_DIM] = {0};
+    for (cx_idx i = 0; i < n; i++)
+        readout_add(w_out, n, dim, res->features, i, r[i], acc);
+    readout_finish(w_out, n, dim, res->features, acc);
+    for (int j = 0; j < dim; j++)
+        y[j] = acc[j];
+}
+
+/* One RK4 stage: k = f(x; u); stage < 4 writes xout = r + c k and adds w k to acc (stage 1 sets
+ * it); stage 4 finishes the step, r += c (acc + k), in place (x is then a separate buffer, so
+ * the mat-vec never reads a value this pass has overwritten). With w_out, y receives
+ * W_out q(xout). */
+static void rk4_stage(const cx_res_ws *restrict ws, const cx_reservoir *restrict res, int stage,
+                      const double *restrict x, const double *restrict u, double c,
+                      double *restrict acc, double *r, double *xout, const double *restrict w_out,
+                      double *restrict y)
+{
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const int features = ws->features;
+    const double gamma = res->rate;
+    const cx_csr *m = res->m;
+    double yacc[CX_MAX_DIM] = {0};
+    for (cx_idx i = 0; i < n; i++) {
+        const double k = gamma * (tanh(preact(ws, m, x, u, i)) - x[i]);
+        double v;
+        if (stage == 1) {
+            acc[i] = k;
+            v = r[i] + c * k;
+        } else if (stage < 4) {
+            acc[i] += 2.0 * k;
+            v = r[i] + c * k;
+        } else {
+            v = r[i] + c * (acc[i] + k);
+        }
+        xout[i] = v;
+        if (w_out != NULL)
+            readout_add(w_out, n, dim, features, i, v, yacc);
+    }
+    if (w_out != NULL) {
+        readout_finish(w_out, n, dim, features, yacc);
+        for (int j = 0; j < dim; j++)
+            y[j] = yacc[j];
+    }
+}
+
+/* The leaky map into xout (never r itself: the mat-vec reads all of x). */
+static void map_pass(const cx_res_ws *restrict ws, const cx_reservoir *restrict res,
+                     const double *restrict x, const double *restrict u, double *restrict xout,
+                     const double *restrict w_out, double *restrict y)
+{
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const int features = ws->features;
+    const double a = res->leak;
+    const double keep = 1.0 - a;
+    const cx_csr *m = res->m;
+    double yacc[CX_MAX_DIM] = {0};
+    for (cx_idx i = 0; i < n; i++) {
+        const double v = keep * x[i] + a * tanh(preact(ws, m, x, u, i));
+        xout[i] = v;
+        if (w_out != NULL)
+            readout_add(w_out, n, dim, features, i, v, yacc);
+    }
+    if (w_out != NULL) {
+        readout_finish(w_out, n, dim, features, yacc);
+        for (int j = 0; j < dim; j++)
+            y[j] = yacc[j];
+    }
+}
+
+void cx_res_open_step(cx_res_ws *ws, const cx_reservoir *res, double dt, const double *u0,
+                      const double *uh, const double *u1, double *r)
+{
+    if (res->model == CX_MODEL_DISCRETE) {
+        map_pass(ws, res, r, u0, ws->xa, NULL, NULL);
+        memcpy(r, ws->xa, (size_t)ws->n * sizeof *r);
+        return;
+    }
+    const double h2 = 0.5 * dt, h6 = dt / 6.0;
+    rk4_stage(ws, res, 1, r, u0, h2, ws->acc, r, ws->xa, NULL, NULL);
+    rk4_stage(ws, res, 2, ws->xa, uh, h2, ws->acc, r, ws->xb, NULL, NULL);
+    rk4_stage(ws, res, 3, ws->xb, uh, dt, ws->acc, r, ws->xa, NULL, NULL);
+    rk4_stage(ws, res, 4, ws->xa, u1, h6, ws->acc, r, r, NULL, NULL);
+}
+
+void cx_res_closed_step(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                        double *r, double *y)
+{
+    double ys[CX_MAX_DIM];
+    if (res->model == CX_MODEL_DISCRETE) {
+        map_pass(ws, res, r, y, ws->xa, w_out, ys);
+        memcpy(r, ws->xa, (size_t)ws->n * sizeof *r);
+        memcpy(y, ys, (size_t)ws->dim * sizeof *y);
+        return;
+    }
+    const double h2 = 0.5 * dt, h6 = dt / 6.0;
+    double yt[CX_MAX_DIM];
+    rk4_stage(ws, res, 1, r, y, h2, ws->acc, r, ws->xa, w_out, ys);
+    rk4_stage(ws, res, 2, ws->xa, ys, h2, ws->acc, r, ws->xb, w_out, yt);
+    rk4_stage(ws, res, 3, ws->xb, yt, dt, ws->acc, r, ws->xa, w_out, ys);
+    rk4_stage(ws, res, 4, ws->xa, ys, h6, ws->acc, r, r, w_out, y);
+}

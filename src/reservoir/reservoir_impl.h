@@ -1,0 +1,47 @@
+/* coexist: private layout of the reservoir workspace and the stepping kernels shared by
+ * model.c, drive.c and probe.c. Not a public header: callers see cx_res_ws as opaque. */
+#ifndef COEXIST_RESERVOIR_IMPL_H
+#define COEXIST_RESERVOIR_IMPL_H
+
+#include "coexist/reservoir.h"
+
+struct cx_res_ws {
+    cx_idx n;
+    int dim;
+    int features;
+    cx_idx nfeat;
+    /* RK4 stage states (xa, xb) and the running sum k1 + 2 k2 + 2 k3 (acc); the discrete map
+     * writes its new state into xa. */
+    double *xa;
+    double *xb;
+    double *acc;
+    double *r2; /* the second trajectory of the Lyapunov estimate */
+    /* Filled by cx_res_meet from the reservoir, once per call, never per step. */
+    double *bias;  /* n: b, or zeros */
+    double *win;   /* n x dim row-major: sigma W_in */
+    double *inw;   /* n: sigma times the single non-zero of row i (one-per-node layout) */
+    cx_idx *incol; /* n: its column */
+    int onehot;    /* every row of W_in has at most one non-zero */
+    /* Gram accumulation block: q columns (nfeat x block, column-major) and u columns. */
+    cx_idx block;
+    double *qblk;
+    double *ublk;
+};
+
+/* Check that `res` fits the workspace and build the input tables. */
+int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
+
+/* q(r) into q (nfeat). */
+void cx_res_features_of(const cx_res_ws *ws, const double *r, double *q /* out */);
+
+/* One open-loop step from r (in/out) with input u0 at the step start, uh at its midpoint and u1
+ * at its end (the discrete map reads u0 only). Requires cx_res_meet. */
+void cx_res_open_step(cx_res_ws *ws, const cx_reservoir *res, double dt, const double *u0,
+                      const double *uh, const double *u1, double *r);
+
+/* One closed-loop step from r (in/out); y holds W_out q(r) on entry and W_out q(r_new) on
+ * return. Requires cx_res_meet. */
+void cx_res_closed_step(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                        double *r, double *y);
+
+#endif
