@@ -9,10 +9,13 @@
  *  3. a trained attractor k: the tail's mean nearest-neighbour distance to cloud k is below
  *     match_tol * s_k (s_k the RMS radius of attractor k about its centroid), and at least
  *     coverage_min of cloud k's points have a tail point within coverage_radius * s_k; of the
- *     attractors that pass, the nearest wins. If it is the run's own task: reconstructed; else
- *     other trained attractor (index kept). Random starts have no own task.
- *  4. otherwise periodic (untrained) when the tail recurs: the RMS of |y(t + T) - y(t)| over the
- *     tail drops below period_tol * S at some lag T (the first such local minimum is the period);
+ *     attractors that pass, the nearest (distance / s_k) wins. If it is the run's own task:
+ *     reconstructed; else other trained attractor (index kept). Random starts have no own task
+ *     (own = -1), so a random start that lands on any trained attractor k is reported as other
+ *     trained attractor with attractor = k.
+ *  4. otherwise periodic (untrained) when the tail recurs: the RMS of |y(t + T) - y(t)| over t
+ *     in the first half of the tail drops below period_tol * S at some lag T <= half the tail
+ *     (the first such local minimum is the period);
  *  5. otherwise aperiodic (untrained).
  * Metrics: distance to every trained attractor (mean nearest-neighbour distance of the tail to
  * its cloud, in signal units), coverage of the matched or own attractor, roundness of the tail in
@@ -72,18 +75,25 @@ void cx_attractor_destroy(cx_attractor **a);
 double cx_attractor_scale(const cx_attractor *a);
 const double *cx_attractor_centre(const cx_attractor *a);
 
+/* The bound box for the divergence test: the bounding box of all training signals x[k]
+ * (n[k] samples x dim, row-major), grown about its centre by the factor `bound`. A coordinate
+ * narrower than 1e-3 of the widest half-width gets that half-width before growing. OUT: lo, hi
+ * (dim values each). */
+void cx_class_box(const double *const *x, const cx_idx *n, int ntasks, int dim, double bound,
+                  double *lo /* out */, double *hi /* out */);
+
 /* Metrics of one run. Fields that do not apply are NaN. */
 typedef struct cx_run_metrics {
-    int outcome;   /* enum cx_outcome */
-    int attractor; /* index of the trained attractor landed on, or -1 */
+    int outcome;                   /* enum cx_outcome */
+    int attractor;                 /* index of the trained attractor landed on, or -1 */
     double distance[CX_MAX_TASKS]; /* mean nearest-neighbour distance to each trained attractor */
-    double coverage;  /* of the matched attractor, else of the own one, else NaN */
-    double roundness; /* signal units */
-    double rotation;  /* +1 anticlockwise, -1 clockwise (first two coordinates), NaN if no turn */
-    double period;    /* time units */
-    double valid_time;  /* time units, NaN without a true continuation */
-    double lyapunov;    /* 1 / time unit, NaN unless computed */
-    double stop_time;   /* time at which the run ended (horizon, or divergence) */
+    double coverage;               /* of the matched attractor, else of the own one, else NaN */
+    double roundness;              /* signal units */
+    double rotation;   /* +1 anticlockwise, -1 clockwise (first two coordinates), NaN if no turn */
+    double period;     /* time units */
+    double valid_time; /* time units, NaN without a true continuation */
+    double lyapunov;   /* 1 / time unit, NaN unless computed */
+    double stop_time;  /* time at which the run ended (horizon, or divergence) */
 } cx_run_metrics;
 
 /* Classify one run.
@@ -95,15 +105,16 @@ typedef struct cx_class_ws cx_class_ws;
 int cx_class_ws_alloc(cx_class_ws **ws /* out */, cx_idx max_samples, int dim);
 void cx_class_ws_free(cx_class_ws **ws);
 int cx_classify_run(cx_class_ws *ws, const cx_class_params *p, const cx_attractor *const *atts,
-                    int natt, const double *lo, const double *hi, const double *y,
-                    cx_idx n_total, cx_idx n_tail, int dim, double dt, int own,
-                    const double *truth, cx_run_metrics *m /* out */);
+                    int natt, const double *lo, const double *hi, const double *y, cx_idx n_total,
+                    cx_idx n_tail, int dim, double dt, int own, const double *truth,
+                    cx_run_metrics *m /* out */);
 
 /* Roundness (circumscribed minus inscribed radius about the least-squares circle centre) of
  * the first two coordinates of n points; also returns the fitted centre and radius. */
 double cx_roundness(const double *x, cx_idx n, int dim, double *cx, double *cy, double *radius);
 
-/* Period of a sampled signal by recurrence (see above); NaN when none is found. */
+/* Period of a sampled signal by recurrence (see above); NaN when none is found, or when n
+ * exceeds the workspace's max_samples or dim its dimension. */
 double cx_period(cx_class_ws *ws, const double *x, cx_idx n, int dim, double dt, double tol_abs);
 
 #endif
