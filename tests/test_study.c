@@ -291,8 +291,8 @@ static void check_missing_file(void)
     cx_study *s = NULL;
     int rc = cx_study_load("/nonexistent-dir/sweep.yaml", &s);
     const char *msg = cx_err_message();
-    cx_test_true("missing sweep file is an I/O error",
-                 rc == CX_ERR_IO &&
+    cx_test_true("missing sweep file is bad input (exit status 2)",
+                 rc == CX_ERR_INVALID &&
                      strncmp(msg, "cannot open sweep file /nonexistent-dir/sweep.yaml: ", 52) ==
                          0 &&
                      strstr(msg, "No such file") != NULL,

@@ -14,8 +14,8 @@ static void report(int ok, const char *what, const char *detail, const char *sou
     else
         failed++;
     int has_source = source != NULL && source[0] != '\0';
-    printf("%s: %s (%s)%s%s%s\n", ok ? "PASS" : "FAIL", what, detail, has_source ? " [source: " : "",
-           has_source ? source : "", has_source ? "]" : "");
+    printf("%s: %s (%s)%s%s%s\n", ok ? "PASS" : "FAIL", what, detail,
+           has_source ? " [source: " : "", has_source ? source : "", has_source ? "]" : "");
     fflush(stdout);
 }
 

@@ -46,13 +46,13 @@ typedef struct cx_cell_timing {
 
 typedef struct cx_cell_result {
     cx_idx cell;
-    int status;  /* enum cx_cell_status */
+    int status; /* enum cx_cell_status */
     int ntasks;
-    int nruns;   /* ntasks + random starts */
-    int multifunctional; /* 1 when every task's own run is reconstructed */
-    int untrained;       /* runs from random starts that found an untrained attractor */
-    double rho_unscaled; /* |lambda|max of the unscaled M */
-    double wout_norm;    /* Frobenius norm of W_out */
+    int nruns;               /* ntasks + random starts */
+    int multifunctional;     /* 1 when every task's own run is reconstructed */
+    int untrained;           /* runs from random starts that found an untrained attractor */
+    double rho_unscaled;     /* |lambda|max of the unscaled M */
+    double wout_norm;        /* Frobenius norm of W_out */
     double wout_square_norm; /* Frobenius norm of the block of W_out on the squared states */
     cx_cell_timing time;
     cx_run_metrics runs[CX_MAX_RUNS]; /* runs 0..ntasks-1 start at the end of task k's
@@ -93,8 +93,12 @@ uint64_t cx_cell_network_key(const cx_cell_params *p);
 uint64_t cx_cell_input_key(const cx_cell_params *p);
 uint64_t cx_cell_drive_key(const cx_cell_params *p);
 
-/* Estimated cost of one cell in floating-point operations, and its peak memory in bytes. */
+/* Estimated cost of one cell in floating-point operations when every stage runs, and its peak
+ * memory in bytes. cx_cell_cost_parts splits the cost by stage: a work unit pays `network` and
+ * `drive` once and `solve` + `probe` per cell. */
 double cx_cell_cost_flops(const cx_cell_params *p);
+void cx_cell_cost_parts(const cx_cell_params *p, double *network /* out */, double *drive /* out */,
+                        double *solve /* out */, double *probe /* out */);
 double cx_cell_memory_bytes(const cx_cell_params *p);
 
 #endif

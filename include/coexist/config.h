@@ -12,14 +12,19 @@
 /* Signed 64-bit index for every count and offset; narrowed, checked, at the BLAS/MPI edges. */
 typedef int64_t cx_idx;
 
-#define CX_MAX_TASKS    16  /* attractors trained into one readout */
-#define CX_MAX_DIM      8   /* dimension of one task's signal */
-#define CX_MAX_AXES     12  /* axes of one sweep */
-#define CX_MAX_RUNS     64  /* closed-loop runs of one cell: tasks + random starts */
-#define CX_MAX_FLOW_PAR 6   /* parameters of one built-in flow */
-#define CX_NAME_LEN     64  /* names of studies, tasks, axes, labels (with the NUL) */
+#define CX_MAX_TASKS    16 /* attractors trained into one readout */
+#define CX_MAX_DIM      8  /* dimension of one task's signal */
+#define CX_MAX_AXES     12 /* axes of one sweep */
+#define CX_MAX_RUNS     64 /* closed-loop runs of one cell: tasks + random starts */
+#define CX_MAX_FLOW_PAR 6  /* parameters of one built-in flow */
+#define CX_NAME_LEN     64 /* names of studies, tasks, axes, labels (with the NUL) */
 #define CX_PATH_LEN     1024
 
 #define CX_VERSION "0.1.0"
+
+/* Sustained floating-point rate of one core assumed by the cost estimates (flop/s). An
+ * assumption, not a measurement: the stepping kernels are memory- and tanh-bound, and a machine
+ * of this project's kind sustained the order of a GFLOP/s in them. */
+#define CX_ASSUMED_FLOP_RATE 1.0e9
 
 #endif

@@ -17,15 +17,15 @@
 
 enum cx_status {
     CX_OK = 0,
-    CX_ERR_NOMEM = 1,   /* an allocation failed */
-    CX_ERR_INVALID = 2, /* bad input from the user: sweep file, command line, data file */
-    CX_ERR_IO = 3,      /* a file could not be opened, read or written */
-    CX_ERR_HDF5 = 4,    /* an HDF5 call failed */
-    CX_ERR_MPI = 5,     /* an MPI call failed */
-    CX_ERR_LAPACK = 6,  /* LAPACK reported an illegal argument (info < 0): a bug */
-    CX_ERR_NUMERIC = 7, /* a numerical method did not converge or met a singular matrix */
-    CX_ERR_MISMATCH = 8, /* an existing file belongs to a different study */
-    CX_ERR_INTERNAL = 9, /* a broken internal invariant: a bug */
+    CX_ERR_NOMEM = 1,       /* an allocation failed */
+    CX_ERR_INVALID = 2,     /* bad input from the user: sweep file, command line, data file */
+    CX_ERR_IO = 3,          /* a file could not be opened, read or written */
+    CX_ERR_HDF5 = 4,        /* an HDF5 call failed */
+    CX_ERR_MPI = 5,         /* an MPI call failed */
+    CX_ERR_LAPACK = 6,      /* LAPACK reported an illegal argument (info < 0): a bug */
+    CX_ERR_NUMERIC = 7,     /* a numerical method did not converge or met a singular matrix */
+    CX_ERR_MISMATCH = 8,    /* an existing file belongs to a different study */
+    CX_ERR_INTERNAL = 9,    /* a broken internal invariant: a bug */
     CX_ERR_INTERRUPTED = 10 /* stopped by a signal before the work was finished */
 };
 

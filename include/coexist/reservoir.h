@@ -38,14 +38,14 @@ typedef struct cx_res_params {
 
 /* Training parameters of one cell (times in time units of the task signals). */
 typedef struct cx_train_params {
-    double dt;      /* sample interval = RK4 step of the reservoir, or the map's time step */
-    double washout; /* driven time discarded before accumulating */
-    double length;  /* driven time accumulated into the Gram sums */
-    double ridge;   /* beta >= 0 */
-    double blend;   /* alpha in [0, 1]: w = (alpha, 1 - alpha) for two tasks */
+    double dt;          /* sample interval = RK4 step of the reservoir, or the map's time step */
+    double washout;     /* driven time discarded before accumulating */
+    double length;      /* driven time accumulated into the Gram sums */
+    double ridge;       /* beta >= 0 */
+    double blend;       /* alpha in [0, 1]: w = (alpha, 1 - alpha) for two tasks */
     int weights_listed; /* 1: use weights[] below; 0: blend for two tasks, equal for more */
     double weights[CX_MAX_TASKS];
-    cx_idx stride;  /* accumulate every stride-th sample */
+    cx_idx stride; /* accumulate every stride-th sample */
 } cx_train_params;
 
 /* Number of features for n nodes. */
@@ -60,9 +60,9 @@ typedef struct cx_reservoir {
     double rate;
     double leak;
     double input_scaling;
-    const cx_csr *m;     /* borrowed, already scaled to the target spectral radius */
-    const double *w_in;  /* borrowed */
-    const double *bias;  /* borrowed, length n, or NULL for none */
+    const cx_csr *m;    /* borrowed, already scaled to the target spectral radius */
+    const double *w_in; /* borrowed */
+    const double *bias; /* borrowed, length n, or NULL for none */
 } cx_reservoir;
 
 /* Workspace for drive and probe of one reservoir size; sized once, no allocation afterwards. */
@@ -72,6 +72,8 @@ void cx_res_ws_free(cx_res_ws **ws);
 /* Number of feature vectors buffered between two Gram updates (default 192); reallocates the
  * block, so call it outside any loop. Results agree for every block size up to rounding. */
 int cx_res_ws_set_block(cx_res_ws *ws, cx_idx block);
+/* Wall-clock seconds spent in Gram updates (dsyrk + dgemm) by this workspace since allocation. */
+double cx_res_ws_gram_seconds(const cx_res_ws *ws);
 
 /* Open-loop drive by one task's signal, with Gram accumulation.
  * u: samples of the signal at spacing dt/2 for the continuous model (u[2i] at step i, u[2i+1]
@@ -80,8 +82,8 @@ int cx_res_ws_set_block(cx_res_ws *ws, cx_idx block);
  * is accumulated: G += q q^T (upper triangle, column-major nfeat x nfeat), C += u q^T
  * (column-major dim x nfeat). r: start state in, end state out. dt: the RK4 step (ignored by
  * the discrete model). Not collective. */
-int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, double dt,
-                 cx_idx washout, cx_idx train, cx_idx stride, double *r, double *g /* in/out */,
+int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, double dt, cx_idx washout,
+                 cx_idx train, cx_idx stride, double *r, double *g /* in/out */,
                  double *c /* in/out */);
 
 /* Outcome of a readout solve: not an error. */

@@ -24,13 +24,13 @@ enum cx_start_mode {
 };
 
 typedef struct cx_probe_params {
-    double horizon;     /* time units of each closed-loop run */
-    double tail;        /* time units judged at the end, 0 < tail <= horizon */
-    int random_starts;  /* runs from random starts besides one per task */
-    int start_mode;     /* enum cx_start_mode */
+    double horizon;    /* time units of each closed-loop run */
+    double tail;       /* time units judged at the end, 0 < tail <= horizon */
+    int random_starts; /* runs from random starts besides one per task */
+    int start_mode;    /* enum cx_start_mode */
     double start_box;
     double drive_time;
-    int lyapunov;       /* 1 = estimate the largest Lyapunov exponent of each run */
+    int lyapunov; /* 1 = estimate the largest Lyapunov exponent of each run */
     double lyapunov_time;
 } cx_probe_params;
 
@@ -80,7 +80,8 @@ uint64_t cx_study_seed(const cx_study *s);
 /* The sweep file text as read. */
 const char *cx_study_source(const cx_study *s);
 /* Canonical resolved form: one "key: value" line per parameter and axis with every default
- * filled in, sorted by key. Two studies compute the same cube iff their canonical forms are equal. */
+ * filled in, sorted by key. Two studies compute the same cube iff their canonical forms are equal.
+ */
 const char *cx_study_canonical(const cx_study *s);
 
 int cx_study_naxes(const cx_study *s);

@@ -26,6 +26,7 @@ struct cx_res_ws {
     cx_idx block;
     double *qblk;
     double *ublk;
+    double gram_seconds; /* wall time spent in the Gram updates since allocation */
 };
 
 /* Check that `res` fits the workspace and build the input tables. */

@@ -276,7 +276,7 @@ int cx_study_load(const char *path, cx_study **out)
     size_t len = 0, cap = 0;
     f = fopen(path, "rb");
     if (f == NULL)
-        CX_RAISE(CX_ERR_IO, "cannot open sweep file %s: %s", path, strerror(errno));
+        CX_RAISE(CX_ERR_INVALID, "cannot open sweep file %s: %s", path, strerror(errno));
     for (;;) {
         if (len == cap) {
             char *nb = NULL;

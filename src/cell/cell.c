@@ -1,0 +1,544 @@
+/* coexist: one grid cell end to end, as cached stages (see include/coexist/cell.h).
+ *
+ * The pipeline follows the usual reservoir-computing workflow for reconstructing attractors
+ * (Lu, Hunt & Ott 2018, Chaos 28, 061104): drive the reservoir open loop with each task's
+ * signal, discard a washout, accumulate the readout's normal equations, solve one weighted ridge
+ * regression over all tasks (Hoerl & Kennard 1970), then close the loop and judge where each run
+ * ends. Conventions fixed here:
+ *  - every task's drive starts from r = 0;
+ *  - the delay line is nilpotent (spectral radius 0), so for it the spectral-radius value sets
+ *    the weight of every link instead of a rescaling;
+ *  - blend weights: listed weights as given; else (alpha, 1 - alpha) for two tasks and 1/K each
+ *    for K != 2 tasks (so blend 0.5 and equal weights agree for two tasks);
+ *  - random starts are keyed by (study seed, replicate, nodes, start index) only, so the same
+ *    starts are used across spectral radii, ridge and blend values (common random numbers make
+ *    neighbouring cells of a map comparable).
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+
+#include "coexist/cell.h"
+#include "coexist/error.h"
+#include "coexist/rng.h"
+#include "coexist/task.h"
+#include "cell_impl.h"
+
+static double now(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+const char *cx_cell_status_name(int status)
+{
+    switch (status) {
+    case CX_CELL_NOT_DONE:
+        return "not-done";
+    case CX_CELL_COMPUTED:
+        return "computed";
+    case CX_CELL_FAILED_NOT_PD:
+        return "failed-not-positive-definite";
+    case CX_CELL_FAILED_NONFINITE:
+        return "failed-non-finite";
+    case CX_CELL_FAILED_INVALID:
+        return "failed-invalid";
+    case CX_CELL_SKIPPED:
+        return "skipped";
+    default:
+        return "unknown";
+    }
+}
+
+int cx_cell_ws_create(cx_cell_ws **out)
+{
+    int rc = CX_OK;
+    cx_cell_ws *ws = NULL;
+    CX_CALLOC(ws, 1);
+    *out = ws;
+done:
+    return rc;
+}
+
+static void free_series(cx_cell_ws *ws)
+{
+    for (int k = 0; k < CX_MAX_TASKS; k++) {
+        free(ws->series[k]);
+        free(ws->training[k]);
+        ws->series[k] = ws->training[k] = NULL;
+        cx_attractor_destroy(&ws->att[k]);
+    }
+    ws->have_series = 0;
+}
+
+static void free_drive(cx_cell_ws *ws)
+{
+    for (int k = 0; k < CX_MAX_TASKS; k++) {
+        free(ws->g[k]);
+        free(ws->c[k]);
+        free(ws->r_end[k]);
+        ws->g[k] = ws->c[k] = ws->r_end[k] = NULL;
+    }
+    free(ws->w_out);
+    free(ws->work);
+    ws->w_out = ws->work = NULL;
+    ws->have_drive = 0;
+}
+
+static void free_input(cx_cell_ws *ws)
+{
+    free(ws->w_in);
+    free(ws->bias_unit);
+    free(ws->bias);
+    free(ws->m.val);
+    free(ws->r);
+    ws->w_in = ws->bias_unit = ws->bias = ws->m.val = ws->r = NULL;
+    ws->have_input = 0;
+    ws->m_scale = 0.0;
+}
+
+void cx_cell_ws_destroy(cx_cell_ws **p)
+{
+    if (p == NULL || *p == NULL)
+        return;
+    cx_cell_ws *ws = *p;
+    free_series(ws);
+    free_drive(ws);
+    free_input(ws);
+    cx_csr_free(&ws->m0);
+    cx_res_ws_free(&ws->rws);
+    cx_class_ws_free(&ws->cws);
+    free(ws->y);
+    free(ws->truth);
+    free(ws->kept_y);
+    free(ws->kept_start);
+    free(ws);
+    *p = NULL;
+}
+
+void cx_cell_ws_keep(cx_cell_ws *ws, int keep)
+{
+    ws->keep = keep;
+}
+
+void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c)
+{
+    *c = ws->counts;
+}
+
+/* Stage 1: M (unscaled) and its spectral radius, keyed by the network parameters. */
+static int stage_network(cx_cell_ws *ws, const cx_cell_params *p)
+{
+    int rc = CX_OK;
+    uint64_t key = cx_cell_network_key(p);
+    if (ws->have_net && ws->net_key == key)
+        return CX_OK;
+    free_input(ws);
+    free_drive(ws);
+    cx_csr_free(&ws->m0);
+    ws->have_net = 0;
+
+    uint64_t coords[8] = {p->replicate,
+                          (uint64_t)p->net.nodes,
+                          (uint64_t)p->net.topology,
+                          cx_rng_bits(p->net.mean_degree),
+                          cx_rng_bits(p->net.rewire),
+                          (uint64_t)p->net.weight_law,
+                          cx_rng_bits(p->net.weight_scale),
+                          (uint64_t)p->net.self_loops};
+    cx_rng rng;
+    cx_rng_keyed(&rng, p->study_seed, CX_RNG_NETWORK, coords, 8);
+    CX_TRY(cx_net_draw(&p->net, &rng, &ws->m0));
+    ws->counts.networks++;
+    cx_rng_keyed(&rng, p->study_seed, CX_RNG_NETWORK, coords, 8);
+    cx_rng_advance(&rng, 0x9e3779b97f4a7c15ULL); /* a stream position the draw never reaches */
+    CX_TRY(cx_net_spectral_radius(&ws->m0, 0, &rng, &ws->rho0));
+    ws->counts.spectral_radii++;
+    ws->net_key = key;
+    ws->have_net = 1;
+done:
+    return rc;
+}
+
+/* Stage 2: W_in and the unit bias draw, keyed by network + dimension + layout; and the scaled
+ * copy of M for the cell's spectral radius. */
+static int stage_input(cx_cell_ws *ws, const cx_cell_params *p)
+{
+    int rc = CX_OK;
+    cx_idx n = p->net.nodes;
+    uint64_t key = cx_cell_input_key(p);
+    if (!(ws->have_input && ws->input_key == key)) {
+        free_input(ws);
+        free_drive(ws);
+        CX_ALLOC(ws->w_in, n * p->dim);
+        CX_ALLOC(ws->bias_unit, n);
+        CX_ALLOC(ws->bias, n);
+        CX_ALLOC(ws->m.val, ws->m0.nnz > 0 ? ws->m0.nnz : 1);
+        CX_ALLOC(ws->r, n);
+        uint64_t coords[4] = {p->replicate, (uint64_t)n, (uint64_t)p->dim,
+                              (uint64_t)p->res.input_layout};
+        cx_rng rng;
+        cx_rng_keyed(&rng, p->study_seed, CX_RNG_INPUT, coords, 4);
+        CX_TRY(cx_net_input(n, p->dim, p->res.input_layout, &rng, ws->w_in));
+        cx_rng_keyed(&rng, p->study_seed, CX_RNG_BIAS, coords, 2);
+        for (cx_idx i = 0; i < n; i++)
+            ws->bias_unit[i] = cx_rng_range(&rng, -1.0, 1.0);
+        ws->n = n;
+        ws->dim = p->dim;
+        ws->input_key = key;
+        ws->have_input = 1;
+        ws->counts.inputs++;
+    }
+    double target = p->res.spectral_radius;
+    double scale;
+    if (ws->rho0 > 0.0)
+        scale = target / ws->rho0;
+    else
+        scale = target / p->net.weight_scale; /* nilpotent (delay line): the value is the weight */
+    if (scale != ws->m_scale) {
+        ws->m.n = ws->m0.n;
+        ws->m.nnz = ws->m0.nnz;
+        ws->m.rowptr = ws->m0.rowptr; /* borrowed */
+        ws->m.col = ws->m0.col;       /* borrowed */
+        for (cx_idx i = 0; i < ws->m0.nnz; i++)
+            ws->m.val[i] = ws->m0.val[i] * scale;
+        ws->m_scale = scale;
+    }
+    for (cx_idx i = 0; i < n; i++)
+        ws->bias[i] = p->res.bias * ws->bias_unit[i];
+done:
+    return rc;
+}
+
+/* The task signals (training and true continuation) and the trained attractors' clouds. */
+static int stage_series(cx_cell_ws *ws, const cx_cell_params *p)
+{
+    int rc = CX_OK;
+    uint64_t key = cx_cell_series_key(p);
+    if (ws->have_series && ws->series_key == key)
+        return CX_OK;
+    free_series(ws);
+    ws->model = p->res.model;
+    ws->sub = p->res.model == CX_MODEL_CONTINUOUS ? 2 : 1;
+    ws->wash = cx_cell_steps(p->train.washout, p->train.dt);
+    ws->train = cx_cell_steps(p->train.length, p->train.dt);
+    ws->horizon = cx_cell_steps(p->probe.horizon, p->train.dt);
+    ws->ntasks = p->ntasks;
+    int dim = p->dim;
+    cx_idx total = ws->sub * (ws->wash + ws->train + ws->horizon) + 1;
+    for (int k = 0; k < p->ntasks; k++) {
+        CX_ALLOC(ws->series[k], total * dim);
+        CX_ALLOC(ws->training[k], (ws->train + 1) * dim);
+        CX_TRY(cx_task_series(&p->tasks[k], p->train.dt / (double)ws->sub, total, ws->series[k]));
+        /* the training part at whole steps: samples wash .. wash + train */
+        for (cx_idx i = 0; i <= ws->train; i++)
+            for (int j = 0; j < dim; j++)
+                ws->training[k][i * dim + j] = ws->series[k][(ws->sub * (ws->wash + i)) * dim + j];
+        CX_TRY(cx_attractor_create(ws->training[k], ws->train + 1, dim, p->cls.cloud_points,
+                                   &ws->att[k]));
+    }
+    ws->series_key = key;
+    ws->have_series = 1;
+done:
+    if (rc != CX_OK)
+        free_series(ws);
+    return rc;
+}
+
+static int ensure_res_ws(cx_cell_ws *ws, const cx_cell_params *p)
+{
+    int rc = CX_OK;
+    if (ws->rws != NULL && ws->rws_n == p->net.nodes && ws->rws_dim == p->dim &&
+        ws->rws_features == p->res.features)
+        return CX_OK;
+    cx_res_ws_free(&ws->rws);
+    CX_TRY(cx_res_ws_alloc(&ws->rws, p->net.nodes, p->dim, p->res.features));
+    ws->rws_n = p->net.nodes;
+    ws->rws_dim = p->dim;
+    ws->rws_features = p->res.features;
+done:
+    return rc;
+}
+
+static void assemble(const cx_cell_ws *ws, const cx_cell_params *p, cx_reservoir *res)
+{
+    memset(res, 0, sizeof *res);
+    res->n = p->net.nodes;
+    res->dim = p->dim;
+    res->model = p->res.model;
+    res->features = p->res.features;
+    res->rate = p->res.rate;
+    res->leak = p->res.leak;
+    res->input_scaling = p->res.input_scaling;
+    res->m = &ws->m;
+    res->w_in = ws->w_in;
+    res->bias = p->res.bias > 0.0 ? ws->bias : NULL;
+}
+
+/* Stage 3: open-loop drive of every task with its Gram sums, keyed by the drive key. */
+static int stage_drive(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoir *res,
+                       cx_cell_timing *t)
+{
+    int rc = CX_OK;
+    uint64_t key = cx_cell_drive_key(p);
+    if (ws->have_drive && ws->drive_key == key)
+        return CX_OK;
+    free_drive(ws);
+    cx_idx n = p->net.nodes;
+    cx_idx nf = cx_features_count(p->res.features, n);
+    int dim = p->dim;
+    for (int k = 0; k < p->ntasks; k++) {
+        CX_CALLOC(ws->g[k], nf * nf);
+        CX_CALLOC(ws->c[k], nf * dim);
+        CX_CALLOC(ws->r_end[k], n);
+    }
+    CX_ALLOC(ws->w_out, nf * dim);
+    CX_ALLOC(ws->work, nf * nf + nf * dim);
+    double t0 = now(), g0 = cx_res_ws_gram_seconds(ws->rws);
+    for (int k = 0; k < p->ntasks; k++)
+        CX_TRY(cx_res_drive(ws->rws, res, ws->series[k], p->train.dt, ws->wash, ws->train,
+                            p->train.stride, ws->r_end[k], ws->g[k], ws->c[k]));
+    t->drive = now() - t0;
+    t->gram = cx_res_ws_gram_seconds(ws->rws) - g0;
+    ws->nfeat = nf;
+    ws->features = p->res.features;
+    ws->drive_key = key;
+    ws->have_drive = 1;
+    ws->counts.drives++;
+done:
+    if (rc != CX_OK)
+        free_drive(ws);
+    return rc;
+}
+
+static void blend_weights(const cx_cell_params *p, double *w)
+{
+    int k = p->ntasks;
+    for (int i = 0; i < k; i++) {
+        if (p->train.weights_listed)
+            w[i] = p->train.weights[i];
+        else if (k == 2)
+            w[i] = i == 0 ? p->train.blend : 1.0 - p->train.blend;
+        else
+            w[i] = 1.0 / (double)k;
+    }
+}
+
+static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns)
+{
+    int rc = CX_OK;
+    cx_idx len = (ws->horizon + 1) * p->dim;
+    if (ws->y_cap < len) {
+        free(ws->y);
+        ws->y = NULL;
+        ws->y_cap = 0;
+        free(ws->truth);
+        ws->truth = NULL;
+        CX_ALLOC(ws->y, len);
+        CX_ALLOC(ws->truth, len);
+        ws->y_cap = len;
+    }
+    if (ws->cws == NULL || ws->cws_cap < ws->horizon + 1 || ws->cws_dim != p->dim) {
+        cx_class_ws_free(&ws->cws);
+        CX_TRY(cx_class_ws_alloc(&ws->cws, ws->horizon + 1, p->dim));
+        ws->cws_cap = ws->horizon + 1;
+        ws->cws_dim = p->dim;
+    }
+    if (ws->keep) {
+        cx_idx need = (cx_idx)nruns * len;
+        if (ws->kept_cap < need) {
+            free(ws->kept_y);
+            free(ws->kept_start);
+            ws->kept_y = ws->kept_start = NULL;
+            ws->kept_cap = 0;
+            CX_ALLOC(ws->kept_y, need);
+            CX_ALLOC(ws->kept_start, (cx_idx)nruns * p->net.nodes);
+            ws->kept_cap = need;
+        }
+    }
+done:
+    return rc;
+}
+
+/* The start state of run j: the end of task j's training, or a random start. */
+static int run_start(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoir *res, int j,
+                     double *r)
+{
+    int rc = CX_OK;
+    cx_idx n = p->net.nodes;
+    if (j < p->ntasks) {
+        memcpy(r, ws->r_end[j], (size_t)n * sizeof *r);
+        return CX_OK;
+    }
+    uint64_t coords[3] = {p->replicate, (uint64_t)n, (uint64_t)(j - p->ntasks)};
+    cx_rng rng;
+    cx_rng_keyed(&rng, p->study_seed, CX_RNG_PROBE_START, coords, 3);
+    if (p->probe.start_mode == CX_START_BOX) {
+        for (cx_idx i = 0; i < n; i++)
+            r[i] = cx_rng_range(&rng, -p->probe.start_box, p->probe.start_box);
+    } else {
+        double pt[CX_MAX_DIM], lo[CX_MAX_DIM], hi[CX_MAX_DIM];
+        const double *sig[CX_MAX_TASKS];
+        cx_idx len[CX_MAX_TASKS];
+        for (int k = 0; k < p->ntasks; k++) {
+            sig[k] = ws->training[k];
+            len[k] = ws->train + 1;
+        }
+        cx_class_box(sig, len, p->ntasks, p->dim, 1.0, lo, hi);
+        for (int d = 0; d < p->dim; d++)
+            pt[d] = cx_rng_range(&rng, lo[d], hi[d]);
+        memset(r, 0, (size_t)n * sizeof *r);
+        CX_TRY(cx_res_drive_constant(ws->rws, res, pt, p->train.dt,
+                                     cx_cell_steps(p->probe.drive_time, p->train.dt), r));
+    }
+done:
+    return rc;
+}
+
+static double frobenius(const double *a, cx_idx rows, cx_idx cols, cx_idx ld, cx_idx first_col)
+{
+    double s = 0.0;
+    for (cx_idx f = first_col; f < first_col + cols; f++)
+        for (cx_idx j = 0; j < rows; j++)
+            s += a[j + f * ld] * a[j + f * ld];
+    return sqrt(s);
+}
+
+static void result_init(cx_cell_result *out, const cx_cell_params *p, cx_idx cell)
+{
+    memset(out, 0, sizeof *out);
+    out->cell = cell;
+    out->status = CX_CELL_NOT_DONE;
+    out->ntasks = p->ntasks;
+    out->nruns = p->ntasks + p->probe.random_starts;
+    out->rho_unscaled = NAN;
+    out->wout_norm = NAN;
+    out->wout_square_norm = NAN;
+    for (int j = 0; j < CX_MAX_RUNS; j++) {
+        cx_run_metrics *m = &out->runs[j];
+        m->outcome = CX_OUT_NOT_RUN;
+        m->attractor = -1;
+        for (int k = 0; k < CX_MAX_TASKS; k++)
+            m->distance[k] = NAN;
+        m->coverage = m->roundness = m->rotation = m->period = NAN;
+        m->valid_time = m->lyapunov = m->stop_time = NAN;
+    }
+}
+
+int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cell_result *out)
+{
+    int rc = CX_OK;
+    double t_start = now(), t0;
+    cx_reservoir res;
+    cx_cell_result r;
+    result_init(&r, p, cell);
+    CX_REQUIRE(p->ntasks >= 1 && p->ntasks <= CX_MAX_TASKS, CX_ERR_INVALID,
+               "a cell needs 1 to %d tasks, got %d", CX_MAX_TASKS, p->ntasks);
+    CX_REQUIRE(r.nruns <= CX_MAX_RUNS, CX_ERR_INVALID, "a cell has at most %d runs, got %d",
+               CX_MAX_RUNS, r.nruns);
+
+    t0 = now();
+    CX_TRY(stage_network(ws, p));
+    CX_TRY(stage_input(ws, p));
+    r.time.network = now() - t0;
+    r.rho_unscaled = ws->rho0;
+    CX_TRY(stage_series(ws, p));
+    CX_TRY(ensure_res_ws(ws, p));
+    assemble(ws, p, &res);
+    CX_TRY(stage_drive(ws, p, &res, &r.time));
+
+    /* Stage 4: the blended readout. */
+    t0 = now();
+    double w[CX_MAX_TASKS];
+    const double *g[CX_MAX_TASKS], *c[CX_MAX_TASKS];
+    blend_weights(p, w);
+    for (int k = 0; k < p->ntasks; k++) {
+        g[k] = ws->g[k];
+        c[k] = ws->c[k];
+    }
+    int solve_status = CX_SOLVE_OK;
+    CX_TRY(cx_readout_solve(ws->nfeat, p->dim, p->ntasks, g, c, w, p->train.ridge, ws->work,
+                            ws->w_out, &solve_status));
+    ws->counts.solves++;
+    r.time.solve = now() - t0;
+    if (solve_status != CX_SOLVE_OK) {
+        r.status =
+            solve_status == CX_SOLVE_NOT_PD ? CX_CELL_FAILED_NOT_PD : CX_CELL_FAILED_NONFINITE;
+        goto finish;
+    }
+    r.wout_norm = frobenius(ws->w_out, p->dim, ws->nfeat, p->dim, 0);
+    if (p->res.features != CX_FEAT_LINEAR)
+        r.wout_square_norm = frobenius(ws->w_out, p->dim, p->net.nodes, p->dim, p->net.nodes);
+
+    /* Stage 5: closed-loop probes and their classification. */
+    CX_TRY(ensure_run_buffers(ws, p, r.nruns));
+    double lo[CX_MAX_DIM], hi[CX_MAX_DIM];
+    const double *train_sig[CX_MAX_TASKS];
+    cx_idx train_len[CX_MAX_TASKS];
+    for (int k = 0; k < p->ntasks; k++) {
+        train_sig[k] = ws->training[k];
+        train_len[k] = ws->train + 1;
+    }
+    cx_class_box(train_sig, train_len, p->ntasks, p->dim, p->cls.bound, lo, hi);
+    cx_idx n_tail = cx_cell_steps(p->probe.tail, p->train.dt);
+    const cx_attractor *atts[CX_MAX_TASKS];
+    for (int k = 0; k < p->ntasks; k++)
+        atts[k] = ws->att[k];
+    for (int j = 0; j < r.nruns; j++) {
+        cx_run_metrics *m = &r.runs[j];
+        cx_idx steps_done = 0;
+        t0 = now();
+        CX_TRY(run_start(ws, p, &res, j, ws->r));
+        if (ws->keep)
+            memcpy(ws->kept_start + (cx_idx)j * p->net.nodes, ws->r,
+                   (size_t)p->net.nodes * sizeof *ws->r);
+        CX_TRY(cx_res_probe(ws->rws, &res, ws->w_out, p->train.dt, ws->horizon, lo, hi, ws->r,
+                            ws->y, &steps_done));
+        ws->counts.probes++;
+        r.time.probes += now() - t0;
+        t0 = now();
+        cx_idx n_total = steps_done + 1;
+        cx_idx tail = n_tail < n_total ? n_tail : n_total;
+        const double *tr = NULL;
+        if (j < p->ntasks) {
+            /* the true continuation from the end of training, at whole steps */
+            const double *src = ws->series[j] + ws->sub * (ws->wash + ws->train) * p->dim;
+            for (cx_idx i = 0; i < n_total; i++)
+                for (int d = 0; d < p->dim; d++)
+                    ws->truth[i * p->dim + d] = src[ws->sub * i * p->dim + d];
+            tr = ws->truth;
+        }
+        CX_TRY(cx_classify_run(ws->cws, &p->cls, atts, p->ntasks, lo, hi, ws->y, n_total, tail,
+                               p->dim, p->train.dt, j < p->ntasks ? j : -1, tr, m));
+        if (p->probe.lyapunov && m->outcome != CX_OUT_DIVERGED) {
+            cx_rng rng;
+            uint64_t coords[3] = {p->replicate, (uint64_t)p->net.nodes, (uint64_t)j};
+            cx_rng_keyed(&rng, p->study_seed, CX_RNG_LYAPUNOV, coords, 3);
+            CX_TRY(cx_res_lyapunov(ws->rws, &res, ws->w_out, p->train.dt,
+                                   cx_cell_steps(p->probe.lyapunov_time, p->train.dt), 1e-8, &rng,
+                                   ws->r, &m->lyapunov));
+        }
+        r.time.classify += now() - t0;
+        if (ws->keep) {
+            memcpy(ws->kept_y + (cx_idx)j * (ws->horizon + 1) * p->dim, ws->y,
+                   (size_t)(n_total * p->dim) * sizeof *ws->y);
+            ws->kept_len[j] = n_total;
+        }
+    }
+    r.status = CX_CELL_COMPUTED;
+    r.multifunctional = 1;
+    for (int k = 0; k < p->ntasks; k++)
+        if (r.runs[k].outcome != CX_OUT_RECONSTRUCTED)
+            r.multifunctional = 0;
+    for (int j = p->ntasks; j < r.nruns; j++)
+        if (r.runs[j].outcome == CX_OUT_UNTRAINED_CYCLE ||
+            r.runs[j].outcome == CX_OUT_UNTRAINED_APERIODIC)
+            r.untrained++;
+finish:
+    r.time.total = now() - t_start;
+    *out = r;
+done:
+    return rc;
+}

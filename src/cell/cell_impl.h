@@ -1,0 +1,75 @@
+/* coexist: private state of the cell pipeline (see include/coexist/cell.h). */
+#ifndef CX_CELL_IMPL_H
+#define CX_CELL_IMPL_H
+
+#include <stdint.h>
+
+#include "coexist/cell.h"
+#include "coexist/net.h"
+#include "coexist/reservoir.h"
+#include "coexist/classify.h"
+
+void cx_key_u64(uint64_t *h, uint64_t v);
+void cx_key_f64(uint64_t *h, double v);
+uint64_t cx_cell_series_key(const cx_cell_params *p);
+/* Whole steps of dt in a time span (rounded to nearest). */
+cx_idx cx_cell_steps(double time, double dt);
+
+struct cx_cell_ws {
+    /* network stage: unscaled M and its spectral radius */
+    int have_net;
+    uint64_t net_key;
+    cx_csr m0;
+    double rho0;
+    /* input stage */
+    int have_input;
+    uint64_t input_key;
+    cx_idx n;
+    int dim;
+    double *w_in;      /* n x dim */
+    double *bias_unit; /* n, U(-1, 1); scaled by the cell's bias */
+    /* M scaled to the cell's spectral radius (values only; structure borrowed from m0) */
+    cx_csr m;
+    double m_scale;
+    double *bias; /* n */
+    /* task signals */
+    int have_series;
+    uint64_t series_key;
+    int ntasks;
+    int model;
+    cx_idx sub; /* samples per step in the stored signals: 2 continuous, 1 discrete */
+    cx_idx wash, train, horizon;
+    double *series[CX_MAX_TASKS];   /* (sub * (wash + train + horizon) + 1) x dim */
+    double *training[CX_MAX_TASKS]; /* (train + 1) x dim: the training part at whole steps */
+    cx_attractor *att[CX_MAX_TASKS];
+    /* drive stage */
+    int have_drive;
+    uint64_t drive_key;
+    int features;
+    cx_idx nfeat;
+    double *g[CX_MAX_TASKS]; /* nfeat x nfeat */
+    double *c[CX_MAX_TASKS]; /* dim x nfeat */
+    double *r_end[CX_MAX_TASKS];
+    cx_res_ws *rws;
+    cx_idx rws_n;
+    int rws_dim, rws_features;
+    /* solve and probes */
+    double *w_out; /* dim x nfeat */
+    double *work;  /* nfeat^2 + dim * nfeat */
+    double *r;     /* n */
+    double *y;     /* (horizon + 1) x dim */
+    double *truth; /* (horizon + 1) x dim: a task's true continuation at whole steps */
+    cx_idx y_cap;
+    cx_class_ws *cws;
+    cx_idx cws_cap;
+    int cws_dim;
+    /* kept for dump */
+    int keep;
+    double *kept_y; /* nruns x (horizon + 1) x dim */
+    cx_idx kept_len[CX_MAX_RUNS];
+    cx_idx kept_cap;
+    double *kept_start; /* nruns x n: the reservoir state each run started from */
+    cx_cell_counts counts;
+};
+
+#endif
