@@ -31,6 +31,9 @@ done
 expect "unknown command" 2 "unknown command" -- "$exe" frobnicate
 expect "no arguments" 2 "usage" -- "$exe"
 expect "check the demo sweep" 0 "is valid" -- "$exe" check "$src/jobs/demo-window.yaml"
+for f in "$src"/jobs/*.yaml; do
+    expect "check $(basename "$f")" 0 "is valid" -- "$exe" check "$f"
+done
 expect "check a missing file" 2 "cannot open sweep file" -- "$exe" check "$tmp/none.yaml"
 
 printf 'study: {name: bad, seed: 1}\nreservoir:\n  nodes: 40\n  spectral_radius: -0.5\n' >"$tmp/bad.yaml"

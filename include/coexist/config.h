@@ -22,9 +22,9 @@ typedef int64_t cx_idx;
 
 #define CX_VERSION "0.1.0"
 
-/* Sustained floating-point rate of one core assumed by the cost estimates (flop/s). An
- * assumption, not a measurement: the stepping kernels are memory- and tanh-bound, and a machine
- * of this project's kind sustained the order of a GFLOP/s in them. */
-#define CX_ASSUMED_FLOP_RATE 1.0e9
+/* Rate of one core assumed by the cost estimates, in modelled flop/s (see the flop model in
+ * src/cell/keys.c, which counts a tanh as 20 flops). Calibrated, not measured per run: cells of
+ * jobs/demo-window.yaml ran at 3.5-4 modelled GFLOP/s on this project's 2-core machines. */
+#define CX_ASSUMED_FLOP_RATE 3.0e9
 
 #endif

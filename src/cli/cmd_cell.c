@@ -60,7 +60,7 @@ static void print_cell(const cx_study *s, const cx_cell_params *p, const cx_cell
            r->wout_norm, r->wout_square_norm);
     if (r->status != CX_CELL_COMPUTED)
         return;
-    printf("\n%-4s %-16s %-24s %-14s", "run", "start", "outcome", "attractor");
+    printf("\n%-4s %-20s %-24s %-14s", "run", "start", "outcome", "attractor");
     for (int k = 0; k < p->ntasks; k++) {
         char h[32];
         snprintf(h, sizeof h, "d(%.10s)", p->tasks[k].name);
@@ -71,14 +71,14 @@ static void print_cell(const cx_study *s, const cx_cell_params *p, const cx_cell
         const cx_run_metrics *m = &r->runs[j];
         char start[40], att[40], b[6][32];
         if (j < p->ntasks)
-            snprintf(start, sizeof start, "end of %.9s", p->tasks[j].name);
+            snprintf(start, sizeof start, "end of %.13s", p->tasks[j].name);
         else
             snprintf(start, sizeof start, "random %d", j - p->ntasks + 1);
         if (m->attractor >= 0)
             snprintf(att, sizeof att, "%.14s", p->tasks[m->attractor].name);
         else
             snprintf(att, sizeof att, "-");
-        printf("%-4d %-16s %-24s %-14s", j, start, cx_outcome_label(m->outcome), att);
+        printf("%-4d %-20s %-24s %-14s", j, start, cx_outcome_label(m->outcome), att);
         for (int k = 0; k < p->ntasks; k++) {
             fmt(b[0], sizeof b[0], m->distance[k], "%.4g");
             printf(" %10s", b[0]);
