@@ -188,6 +188,35 @@ static void check_erdos_renyi_structure(void)
     cx_csr_free(&m);
 }
 
+static void check_reproducible(void)
+{
+    cx_net_params p = er(3000, 4.5, CX_WEIGHT_NORMAL, 0.9);
+    for (int t = 0; t < 2; t++) {
+        if (t == 1) {
+            p.topology = CX_TOPO_SMALL_WORLD;
+            p.mean_degree = 6.0;
+            p.rewire = 0.3;
+        }
+        cx_csr a, b;
+        draw(&p, 40u, &a);
+        draw(&p, 40u, &b);
+        int same = a.nnz == b.nnz &&
+                   memcmp(a.rowptr, b.rowptr, (size_t)(a.n + 1) * sizeof *a.rowptr) == 0 &&
+                   memcmp(a.col, b.col, (size_t)a.nnz * sizeof *a.col) == 0 &&
+                   memcmp(a.val, b.val, (size_t)a.nnz * sizeof *a.val) == 0;
+        cx_csr c;
+        draw(&p, 41u, &c);
+        int differ = c.nnz != a.nnz || memcmp(a.col, c.col, (size_t)a.nnz * sizeof *a.col) != 0;
+        cx_test_true(t == 0
+                         ? "ER: same key gives a bit-identical matrix, other key another"
+                         : "small world: same key gives a bit-identical matrix, other key another",
+                     same && differ, "", "reproducibility contract, DESIGN.md 'Randomness'");
+        cx_csr_free(&c);
+        cx_csr_free(&b);
+        cx_csr_free(&a);
+    }
+}
+
 static void check_kernels(void)
 {
     cx_net_params p = er(300, 9.0, CX_WEIGHT_NORMAL, 1.7);
@@ -414,6 +443,16 @@ static void check_methods_agree(void)
         }
         cx_csr_free(&m);
     }
+    {
+        /* Sparse ER with self loops: many nodes are peeled off, each adding its self loop. */
+        cx_net_params q = er(400, 1.6, CX_WEIGHT_NORMAL, 1.3);
+        q.self_loops = 1;
+        cx_csr s;
+        draw(&q, 30u, &s);
+        cx_test_rel("ER N = 400, d = 1.6, self loops: trimmed dgeev vs LAPACK on the full matrix",
+                    radius(&s, 1, NULL), lapack_radius(&s), 1e-12, SRC_LAPACK);
+        cx_csr_free(&s);
+    }
     cx_net_params p = er(900, 6.0, CX_WEIGHT_NORMAL, 0.5);
     p.topology = CX_TOPO_SMALL_WORLD;
     p.rewire = 0.1;
@@ -424,6 +463,12 @@ static void check_methods_agree(void)
                 radius(&m, 2, NULL), r1, 1e-10, "LAPACK dgeev through cx_net_spectral_radius");
     cx_test_rel("small world N = 900: dgeev vs LAPACK on the full matrix", r1, lapack_radius(&m),
                 1e-12, SRC_LAPACK);
+    double n1 = NAN, n2 = NAN;
+    int rc1 = cx_net_spectral_radius(&m, 2, NULL, &n1),
+        rc2 = cx_net_spectral_radius(&m, 2, NULL, &n2);
+    cx_test_true("Arnoldi without a caller stream is reproducible and agrees with dgeev",
+                 rc1 == CX_OK && rc2 == CX_OK && n1 == n2 && fabs(n1 - r1) <= 1e-10 * r1, "",
+                 "reproducibility contract, net.h; LAPACK dgeev");
     cx_csr_free(&m);
 }
 
@@ -456,6 +501,7 @@ int main(void)
 {
     check_invalid();
     check_erdos_renyi_structure();
+    check_reproducible();
     check_kernels();
     check_input();
     check_analytic_spectra();

@@ -13,7 +13,7 @@
 #include "coexist/rng.h"
 
 enum cx_topology {
-    CX_TOPO_ERDOS_RENYI = 0, /* each directed edge i<-j present with probability d/N */
+    CX_TOPO_ERDOS_RENYI = 0, /* each i<-j present with prob. d/(N-1), d/N with self loops */
     CX_TOPO_RING = 1,        /* simple cycle: node i reads node i-1 (mod N) */
     CX_TOPO_DELAY_LINE = 2,  /* node i reads node i-1, no wrap: nilpotent, spectral radius 0 */
     CX_TOPO_SMALL_WORLD = 3  /* ring lattice of mean degree d, each edge rewired with prob. p */
@@ -32,12 +32,12 @@ enum cx_input_layout {
 /* What the network draw depends on; zero-initialise before filling so that hashing is stable. */
 typedef struct cx_net_params {
     cx_idx nodes;
-    int topology;          /* enum cx_topology */
-    double mean_degree;    /* d: expected in-degree (ER), lattice degree (small world, even) */
-    double rewire;         /* small world rewiring probability p in [0, 1] */
-    int weight_law;        /* enum cx_weight_law */
-    double weight_scale;   /* a */
-    int self_loops;        /* ER only: 0 = no i<-i edges (the default) */
+    int topology;        /* enum cx_topology */
+    double mean_degree;  /* d: expected in-degree (ER), lattice degree (small world, even) */
+    double rewire;       /* small world rewiring probability p in [0, 1] */
+    int weight_law;      /* enum cx_weight_law */
+    double weight_scale; /* a */
+    int self_loops;      /* ER only: 0 = no i<-i edges (the default) */
 } cx_net_params;
 
 /* Compressed sparse row matrix, n x n, 0-based. Row i holds the inputs of node i. */
@@ -66,7 +66,12 @@ void cx_csr_scale(cx_csr *m, double s);
 
 /* Largest eigenvalue modulus of M.
  * method 0 = automatic (dgeev for n <= 1500, Arnoldi above), 1 = dgeev, 2 = Arnoldi.
- * For a nilpotent matrix (delay line) the answer is 0. OUT: *rho. Not collective. */
+ * Nodes without inputs or without outputs are first peeled off, repeatedly (exact: each adds
+ * its self-loop weight as an eigenvalue), and n above is the size of what is left; an
+ * acyclic matrix (delay line) gives 0 (or its largest |self loop|), a weighted permutation
+ * (ring) is answered in closed form. `rng` supplies Arnoldi's starting vectors; NULL uses a
+ * fixed internal stream. Fails with CX_ERR_NUMERIC when Arnoldi is not confirmed and the
+ * matrix is too large for the dgeev fallback (4000). OUT: *rho. Not collective. */
 int cx_net_spectral_radius(const cx_csr *m, int method, cx_rng *rng, double *rho /* out */);
 
 /* Input matrix W_in, n x dim row-major, drawn from `rng`. OUT: w (caller allocates n*dim). */
