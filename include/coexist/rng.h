@@ -37,6 +37,10 @@ void cx_rng_seed(cx_rng *rng, uint64_t initstate, uint64_t initseq);
 void cx_rng_keyed(cx_rng *rng, uint64_t study_seed, int purpose, const uint64_t *coords,
                   size_t ncoords);
 
+/* The SplitMix64 finaliser (Steele, Lea & Flood 2014, OOPSLA): a bijective 64-bit mixer used to
+ * turn keys into seeds (and by other modules to finish their hashes). */
+uint64_t cx_rng_mix64(uint64_t z);
+
 /* The bit pattern of a double, for keys (-0.0 is folded to 0.0). */
 uint64_t cx_rng_bits(double x);
 

@@ -37,7 +37,7 @@
 #define CX_MIX_GAMMA  0x9e3779b97f4a7c15ULL
 #define CX_MIX_GAMMA2 0x3c6ef372fe94f82aULL
 
-static uint64_t mix64(uint64_t z)
+uint64_t cx_rng_mix64(uint64_t z)
 {
     z ^= z >> 30;
     z *= 0xbf58476d1ce4e5b9ULL;
@@ -69,12 +69,12 @@ void cx_rng_keyed(cx_rng *rng, uint64_t study_seed, int purpose, const uint64_t 
                   size_t ncoords)
 {
     uint64_t h = CX_MIX_GAMMA;
-    h = mix64(h ^ study_seed);
-    h = mix64(h ^ (uint64_t)(int64_t)purpose);
-    h = mix64(h ^ (uint64_t)ncoords);
+    h = cx_rng_mix64(h ^ study_seed);
+    h = cx_rng_mix64(h ^ (uint64_t)(int64_t)purpose);
+    h = cx_rng_mix64(h ^ (uint64_t)ncoords);
     for (size_t i = 0; i < ncoords; i++)
-        h = mix64(h ^ coords[i]);
-    cx_rng_seed(rng, mix64(h ^ CX_MIX_GAMMA), mix64(h ^ CX_MIX_GAMMA2));
+        h = cx_rng_mix64(h ^ coords[i]);
+    cx_rng_seed(rng, cx_rng_mix64(h ^ CX_MIX_GAMMA), cx_rng_mix64(h ^ CX_MIX_GAMMA2));
 }
 
 uint64_t cx_rng_bits(double x)
