@@ -106,9 +106,8 @@ int main(int argc, char **argv)
             printf("dispatch, %d ranks, %s: %lld units in %lld batches in %.3f s = %.0f units/s "
                    "(coordinator CPU %.1f %% of wall; rank 0 computes: %s)\n",
                    size, mode == 0 ? "one unit per batch" : "batches sized by cost (factoring)",
-                   (long long)st.units, (long long)st.batches, st.wall,
-                   (double)st.units / st.wall, 100.0 * st.rank0_cpu / st.wall,
-                   st.coordinator_computes ? "yes" : "no");
+                   (long long)st.units, (long long)st.batches, st.wall, (double)st.units / st.wall,
+                   100.0 * st.rank0_cpu / st.wall, st.coordinator_computes ? "yes" : "no");
     }
     if (rc != CX_OK && rank == 0)
         cx_err_print("bench_dispatch", 1);

@@ -6,9 +6,8 @@
  * abort or MPI_Abort, because a library that kills one rank leaves the others waiting in a
  * collective.
  *
- * The trace is process-global state: it is written only on the failure path, each MPI rank is
- * one process, and coexist does not call into its own library from several threads, so a plain
- * static buffer is enough (a thread-local one would buy nothing here).
+ * The trace is process-global state, written only on the failure path; each MPI rank is one
+ * process, and pushes are serialised by a mutex because rank 0 may compute on a second thread.
  */
 #ifndef COEXIST_ERROR_H
 #define COEXIST_ERROR_H

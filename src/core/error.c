@@ -1,4 +1,5 @@
 /* coexist: the error trace (see include/coexist/error.h) and checked allocation. */
+#include <pthread.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -17,12 +18,16 @@ typedef struct cx_frame {
     char msg[CX_TRACE_MSG];
 } cx_frame;
 
-/* Process-global by design: see the note in error.h. */
+/* Process-global by design (see the note in error.h). The engine's rank 0 may compute cells on a
+ * second thread while its main thread coordinates, so pushes are serialised by a mutex; both
+ * threads' frames land in the one trace that main() prints. */
 static cx_frame trace[CX_TRACE_DEPTH];
 static int trace_len;
+static pthread_mutex_t trace_lock = PTHREAD_MUTEX_INITIALIZER;
 
 int cx_err_push(int code, const char *file, int line, const char *func, const char *fmt, ...)
 {
+    pthread_mutex_lock(&trace_lock);
     if (trace_len < CX_TRACE_DEPTH) {
         cx_frame *f = &trace[trace_len++];
         f->code = code;
@@ -37,6 +42,7 @@ int cx_err_push(int code, const char *file, int line, const char *func, const ch
             va_end(ap);
         }
     }
+    pthread_mutex_unlock(&trace_lock);
     return code;
 }
 
@@ -72,7 +78,9 @@ void cx_err_print(const char *prog, int verbose)
 
 void cx_err_clear(void)
 {
+    pthread_mutex_lock(&trace_lock);
     trace_len = 0;
+    pthread_mutex_unlock(&trace_lock);
 }
 
 const char *cx_status_name(int code)
