@@ -8,6 +8,7 @@
 #include "coexist/error.h"
 #include "coexist/study.h"
 #include "cli/commands.h"
+#include "cli/estimate.h"
 
 static void help(void)
 {
@@ -17,24 +18,6 @@ static void help(void)
         "of distinct networks and drives the grid needs, the estimated cost in core-hours and\n"
         "the peak memory of one cell. Exit status 0 when valid, 2 when not (the message gives\n"
         "file:line:column, the key and what was expected).\n");
-}
-
-static int cmp_u64(const void *a, const void *b)
-{
-    uint64_t x = *(const uint64_t *)a, y = *(const uint64_t *)b;
-    return x < y ? -1 : x > y;
-}
-
-static cx_idx distinct(uint64_t *v, cx_idx n)
-{
-    if (n == 0)
-        return 0;
-    qsort(v, (size_t)n, sizeof *v, cmp_u64);
-    cx_idx d = 1;
-    for (cx_idx i = 1; i < n; i++)
-        if (v[i] != v[i - 1])
-            d++;
-    return d;
 }
 
 static void print_axis(const cx_axis_info *a)
@@ -98,61 +81,21 @@ int cx_cmd_check(int argc, char **argv)
     printf("%s%lld cells, up to %d tasks and %d closed-loop runs per cell\n", naxes ? " = " : "",
            (long long)cells, cx_study_max_tasks(s), cx_study_max_runs(s));
 
-    /* Reuse structure and cost: bind every cell (cheap) up to a limit, else a sample. */
-    const cx_idx limit = 2000000;
-    cx_idx visit = cells <= limit ? cells : limit;
-    cx_idx step = cells <= limit ? 1 : cells / limit;
-    uint64_t *nk = calloc((size_t)visit, sizeof *nk);
-    uint64_t *dk = calloc((size_t)visit, sizeof *dk);
-    if (nk == NULL || dk == NULL) {
-        free(nk);
-        free(dk);
-        cx_study_destroy(&s);
-        fprintf(stderr, "coexist check: out of memory\n");
-        return CX_EXIT_FAILURE;
-    }
-    double net_f = 0, drive_f = 0, solve_f = 0, probe_f = 0, mem_max = 0;
-    cx_cell_params p;
-    for (cx_idx v = 0; v < visit; v++) {
-        rc = cx_study_bind(s, v * step, &p);
-        if (rc != CX_OK)
-            break;
-        double a, b, c, d;
-        cx_cell_cost_parts(&p, &a, &b, &c, &d);
-        nk[v] = cx_cell_network_key(&p);
-        dk[v] = cx_cell_drive_key(&p);
-        net_f += a;
-        drive_f += b;
-        solve_f += c;
-        probe_f += d;
-        double m = cx_cell_memory_bytes(&p);
-        if (m > mem_max)
-            mem_max = m;
-    }
+    cx_estimate e;
+    rc = cx_estimate_study(s, &e);
     if (rc != CX_OK) {
-        free(nk);
-        free(dk);
         cx_study_destroy(&s);
         return cx_cli_fail("coexist check", rc);
     }
-    /* Mean per visited cell; stages shared inside the sample are charged once per key. */
-    cx_idx nnet = distinct(nk, visit), ndrive = distinct(dk, visit);
-    double scale = (double)cells / (double)visit;
-    double total = (net_f * (double)nnet / (double)visit +
-                    drive_f * (double)ndrive / (double)visit + solve_f + probe_f) *
-                   scale;
     printf("reuse: %lld distinct networks and %lld distinct drives (work units)%s\n",
-           (long long)(nnet * (cells <= limit ? 1 : step)),
-           (long long)(ndrive * (cells <= limit ? 1 : step)),
-           cells <= limit ? "" : " (estimated from a sample)");
+           (long long)e.networks, (long long)e.drives,
+           e.sampled ? " (estimated from a sample)" : "");
     printf("cost: %.3g GFLOP in all (%.3g per cell): about %.3g core-hours at an assumed "
            "%.2g GFLOP/s per core\n",
-           total * 1e-9, total * 1e-9 / (double)cells, total / CX_ASSUMED_FLOP_RATE / 3600.0,
+           e.flops * 1e-9, e.flops * 1e-9 / (double)cells, e.flops / CX_ASSUMED_FLOP_RATE / 3600.0,
            CX_ASSUMED_FLOP_RATE * 1e-9);
     printf("memory: at most %.1f MiB per cell (one rank computes one cell at a time)\n",
-           mem_max / 1048576.0);
-    free(nk);
-    free(dk);
+           e.memory_max / 1048576.0);
     cx_study_destroy(&s);
     return CX_EXIT_OK;
 }

@@ -22,6 +22,9 @@ static const cx_command commands[] = {
     {"cell", cx_cmd_cell, "compute one grid cell and print its runs, outcomes and metrics"},
     {"run", cx_cmd_run, "compute a sweep into a cube (under mpirun/srun or alone); resumes"},
     {"status", cx_cmd_status, "progress of a cube: cells done, failures, time left, journals"},
+    {"report", cx_cmd_report, "ensemble tables, capacity, region maps and CSV from a cube"},
+    {"replay", cx_cmd_replay, "recompute one cell of a cube and check it bit for bit"},
+    {"jobs", cx_cmd_jobs, "write a SLURM batch script for a sweep, sized from its cost estimate"},
 };
 
 static void usage(FILE *out)

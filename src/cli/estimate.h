@@ -1,0 +1,19 @@
+/* coexist command line: the cost and memory estimate of a whole study (check, jobs). */
+#ifndef CX_CLI_ESTIMATE_H
+#define CX_CLI_ESTIMATE_H
+
+#include "coexist/study.h"
+
+typedef struct cx_estimate {
+    double flops;      /* modelled flops of the whole grid, shared stages charged once per key */
+    double memory_max; /* bytes of the largest cell */
+    cx_idx networks;   /* distinct network keys */
+    cx_idx drives;     /* distinct drive keys (work units) */
+    int sampled;       /* 1 when the grid was too large to bind every cell */
+} cx_estimate;
+
+/* Bind every cell (a sample of 2,000,000 when the grid is larger) and add up the cost model of
+ * src/cell/keys.c. OUT: *e. Not collective. */
+int cx_estimate_study(const cx_study *s, cx_estimate *e /* out */);
+
+#endif
