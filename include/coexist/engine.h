@@ -148,6 +148,16 @@ int cx_journal_peek(const char *path, uint64_t *hash, int *rank, size_t *record_
 /* The journal directory of a cube (CUBE + ".journal") and the path of rank r's journal. */
 void cx_journal_dir(const char *cube, char *out, size_t n);
 void cx_journal_path(const char *cube, int rank, char *out, size_t n);
+/* The journal of rank r of shard i of n: CUBE.journal/shard-IIII-of-NNNN-rank-RRRR.jnl. */
+void cx_journal_shard_path(const char *cube, int index, int count, int rank, char *out, size_t n);
+/* Parse a journal file name (no directory) of that form; 0 when it is one. */
+int cx_journal_shard_parse(const char *name, int *index /* out */, int *count /* out */);
+
+/* Shards: mine[c] = 1 for the cells of shard `index` of `count` (0 <= index < count), a pure
+ * function of the plan's keys and costs (cost-balanced, longest first). OUT: mine (ncells
+ * bytes), *cost (the shard's estimated flops; may be NULL). Not collective. */
+int cx_shard_mask(const cx_plan *plan, int index, int count, uint8_t *mine /* out */,
+                  double *cost /* out */);
 
 /* The cube. */
 typedef struct cx_cube cx_cube;
@@ -216,6 +226,14 @@ typedef struct cx_engine_opts {
     int blas_threads;
     int quiet;         /* no start lines and no progress */
     int keep_journals; /* do not remove journals after a complete run */
+    /* Shard mode (shard_count > 0): compute only shard shard_index of shard_count, write only
+     * journals named by shard and rank, never create or write the cube. */
+    int shard_index, shard_count;
+    /* Merge mode: compute nothing; create the cube if absent and replay every journal. */
+    int merge_only;
+    /* Seconds that cells still computing after a stop request may take; after that the
+     * process leaves them (they stay not done) and exits with status 3. */
+    double grace_seconds;
 } cx_engine_opts;
 void cx_engine_opts_default(cx_engine_opts *o /* out */);
 
@@ -247,7 +265,8 @@ typedef struct cx_engine_stats {
 int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const cx_engine_ops *ops,
                   const cx_engine_opts *o, cx_engine_stats *st /* out */);
 
-/* Ask a running engine to stop at the next batch boundary (async-signal-safe). */
+/* Ask a running engine to stop (async-signal-safe): no more work is handed out, cells being
+ * computed may finish within opts.grace_seconds, the rest stay not done. */
 void cx_engine_request_stop(void);
 
 #endif

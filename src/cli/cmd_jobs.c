@@ -104,6 +104,7 @@ static void write_body(FILE *f, const jobs_opts *o, const char *cube, int array)
     fprintf(f, "SWEEP=%s               # EDIT: the sweep file\n", o->sweep);
     fprintf(f, "CUBE=%s                # EDIT: the output cube\n", cube);
     fprintf(f, "COEXIST=${COEXIST:-coexist}  # EDIT: path to the coexist program\n");
+    fprintf(f, "GRACE=60                # EDIT: seconds running cells may take after the signal\n");
     fprintf(f, "export OPENBLAS_NUM_THREADS=1\n\n");
     fprintf(f, "echo \"coexist job ${SLURM_JOB_ID:-?} restart ${SLURM_RESTART_COUNT:-0}%s\"\n",
             array ? " shard ${SLURM_ARRAY_TASK_ID:-?}/${SLURM_ARRAY_TASK_COUNT:-?}" : "");
@@ -111,8 +112,12 @@ static void write_body(FILE *f, const jobs_opts *o, const char *cube, int array)
     fprintf(f, "\"$COEXIST\" check \"$SWEEP\" || exit $?\n\n");
     fprintf(f, "# The batch shell receives USR1 before the limit and passes it on to the run,\n"
                "# which stops handing out work, checkpoints and exits with status 3.\n");
-    fprintf(f, "srun --mpi=pmix \"$COEXIST\" run \"$SWEEP\" -o \"$CUBE\"%s &\n",
-            array ? " --shard \"$SLURM_ARRAY_TASK_ID/$SLURM_ARRAY_TASK_COUNT\"" : "");
+    if (array)
+        fprintf(f,
+                "# Each array task is one shard: `coexist run` takes it from SLURM_ARRAY_TASK_ID\n"
+                "# and SLURM_ARRAY_TASK_COUNT and writes only journals; the merge job builds\n"
+                "# the cube.\n");
+    fprintf(f, "srun --mpi=pmix \"$COEXIST\" run \"$SWEEP\" -o \"$CUBE\" --grace \"$GRACE\" &\n");
     fprintf(f, "pid=$!\n");
     fprintf(f, "trap 'kill -USR1 $pid 2>/dev/null' USR1\n");
     fprintf(f, "trap 'kill -TERM $pid 2>/dev/null' TERM\n");
@@ -247,6 +252,12 @@ int cx_cmd_jobs(int argc, char **argv)
     }
     if (o.script != NULL)
         fprintf(stderr, "coexist jobs: wrote %s\n", o.script);
+    if (o.array > 0)
+        fprintf(stderr,
+                "coexist jobs: submit the shards, then the merge job after them:\n"
+                "  jid=$(sbatch --parsable %s)\n"
+                "  sbatch --dependency=afterany:$jid --wrap \"coexist merge %s -o %s\"\n",
+                o.script ? o.script : "SCRIPT", o.sweep, cube);
     cx_study_destroy(&s);
     return CX_EXIT_OK;
 }

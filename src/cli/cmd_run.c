@@ -22,7 +22,8 @@ static void help(void)
 {
     printf("usage: coexist run FILE -o CUBE.h5 [--fresh] [--checkpoint SECONDS]\n"
            "                  [--progress SECONDS] [--blas-threads K]\n"
-           "                  [--coordinator-computes auto|yes|no] [--keep-journals]\n\n"
+           "                  [--coordinator-computes auto|yes|no] [--keep-journals]\n"
+           "                  [--shard I/N] [--grace SECONDS]\n\n"
            "Compute every cell of the sweep file FILE into the cube CUBE.h5. Start it under\n"
            "mpirun or srun for several ranks, or alone for one. Rank 0 hands out work units\n"
            "(one drive with all its blend and ridge cells); every rank keeps a journal in\n"
@@ -37,8 +38,41 @@ static void help(void)
            "  --blas-threads K         BLAS threads per rank (1)\n"
            "  --coordinator-computes   whether rank 0 computes besides coordinating; auto: when\n"
            "                           the ranks on its node do not outnumber the cores\n"
-           "  --keep-journals          keep the journals after a complete run\n\n"
+           "  --keep-journals          keep the journals after a complete run\n"
+           "  --shard I/N              compute only shard I of N (0 <= I < N): a fixed,\n"
+           "                           cost-balanced share of the cells; writes journals only,\n"
+           "                           never the cube (`coexist merge` builds it). Inside a\n"
+           "                           SLURM job array of more than one task the shard comes\n"
+           "                           from SLURM_ARRAY_TASK_ID and SLURM_ARRAY_TASK_COUNT\n"
+           "  --grace SECONDS          after SIGUSR1, SIGTERM or SIGINT no more work is handed\n"
+           "                           out; cells being computed may take this long to finish,\n"
+           "                           then they are left not done (60)\n\n"
            "exit status: 0 done, 1 failure, 2 bad input, 3 stopped early (rerun to continue)\n");
+}
+
+/* Inside a SLURM job array of more than one task, the task is a shard: task ids run from
+ * SLURM_ARRAY_TASK_MIN in steps of SLURM_ARRAY_TASK_STEP (sbatch(1), "OUTPUT ENVIRONMENT
+ * VARIABLES"). Returns -1 (after a message) when the variables do not make sense. */
+static int array_shard(cx_engine_opts *o)
+{
+    const char *cnt = getenv("SLURM_ARRAY_TASK_COUNT"), *id = getenv("SLURM_ARRAY_TASK_ID");
+    const char *lo = getenv("SLURM_ARRAY_TASK_MIN"), *step = getenv("SLURM_ARRAY_TASK_STEP");
+    if (cnt == NULL || atol(cnt) <= 1)
+        return 0;
+    long n = atol(cnt), i = id ? atol(id) : -1, m = lo ? atol(lo) : 0,
+         st = step && atol(step) > 0 ? atol(step) : 1;
+    long k = (i - m) / st;
+    if (id == NULL || (i - m) % st != 0 || k < 0 || k >= n || n > 100000) {
+        fprintf(stderr,
+                "coexist run: SLURM_ARRAY_TASK_ID=%s (min %s, step %s) does not give a shard of "
+                "SLURM_ARRAY_TASK_COUNT=%s; pass --shard I/N\n",
+                id ? id : "(unset)", lo ? lo : "(unset)", step ? step : "(unset)", cnt);
+        return -1;
+    }
+    o->shard_index = (int)k;
+    o->shard_count = (int)n;
+    fprintf(stderr, "coexist run: SLURM array task %ld of %ld -> shard %ld/%ld\n", i, n, k, n);
+    return 0;
 }
 
 static void on_signal(int sig)
@@ -47,21 +81,28 @@ static void on_signal(int sig)
     cx_engine_request_stop();
 }
 
-static void print_summary(const cx_engine_stats *st, const cx_plan *plan, double flop_rate)
+static void print_summary(const cx_engine_stats *st, const cx_plan *plan, double flop_rate,
+                          int shard)
 {
     fprintf(stderr, "coexist run: %lld cells computed in %.3f s (%lld batches)",
             (long long)st->computed, st->wall, (long long)st->batches);
     if (st->computed > 0 && st->wall > 0)
         fprintf(stderr, ", %.4g cells/s", (double)st->computed / st->wall);
-    fprintf(stderr, "\n  cube:");
-    for (int k = CX_CELL_COMPUTED, first = 1; k <= CX_CELL_SKIPPED; k++)
+    if (shard)
+        fprintf(stderr, "\n  shard: %lld of its %lld cells left to do were computed%s\n",
+                (long long)st->computed, (long long)st->scheduled,
+                st->complete ? " (shard done)" : "");
+    else
+        fprintf(stderr, "\n  cube:");
+    for (int k = CX_CELL_COMPUTED, first = 1; k <= CX_CELL_SKIPPED && !shard; k++)
         if (st->by_status[k] > 0 || k == CX_CELL_COMPUTED) {
             fprintf(stderr, "%s %lld %s", first ? "" : ",", (long long)st->by_status[k],
                     cx_cell_status_name(k));
             first = 0;
         }
-    fprintf(stderr, " of %lld cells%s\n", (long long)plan->ncells,
-            st->complete ? " (complete)" : "");
+    if (!shard)
+        fprintf(stderr, " of %lld cells%s\n", (long long)plan->ncells,
+                st->complete ? " (complete)" : "");
     fprintf(stderr,
             "  stages run: %lld networks, %lld spectral radii, %lld inputs, %lld drives, %lld "
             "solves, %lld probes\n",
@@ -90,6 +131,7 @@ static void print_summary(const cx_engine_stats *st, const cx_plan *plan, double
 int cx_cmd_run(int argc, char **argv)
 {
     const char *file = NULL, *out = NULL, *v = NULL;
+    int shard_given = 0;
     cx_engine_opts o;
     cx_engine_opts_default(&o);
     for (int i = 1; i < argc; i++) {
@@ -157,6 +199,27 @@ int cx_cmd_run(int argc, char **argv)
             }
             continue;
         }
+        if ((k = cx_arg_value(argc, argv, &i, "--shard", &v)) != 0) {
+            int si = -1, sn = 0, used = 0;
+            if (k < 0 || sscanf(v, "%d/%d%n", &si, &sn, &used) != 2 || v[used] != '\0' || sn < 1 ||
+                sn > 100000 || si < 0 || si >= sn) {
+                fprintf(stderr, "coexist run: --shard needs I/N with 0 <= I < N, got '%s'\n",
+                        k > 0 ? v : "");
+                return CX_EXIT_BAD_INPUT;
+            }
+            o.shard_index = si;
+            o.shard_count = sn;
+            shard_given = 1;
+            continue;
+        }
+        if ((k = cx_arg_value(argc, argv, &i, "--grace", &v)) != 0) {
+            if (k < 0 || cx_arg_double("--grace", v, &o.grace_seconds) < 0 ||
+                !(o.grace_seconds >= 0)) {
+                fprintf(stderr, "coexist run: --grace needs seconds >= 0\n");
+                return CX_EXIT_BAD_INPUT;
+            }
+            continue;
+        }
         if (argv[i][0] == '-' || file != NULL) {
             fprintf(stderr, "coexist run: unexpected argument '%s' (see --help)\n", argv[i]);
             return CX_EXIT_BAD_INPUT;
@@ -168,6 +231,13 @@ int cx_cmd_run(int argc, char **argv)
         return CX_EXIT_BAD_INPUT;
     }
     o.cube = out;
+    if (!shard_given && array_shard(&o) != 0)
+        return CX_EXIT_BAD_INPUT;
+    if (o.shard_count > 0 && o.fresh) {
+        fprintf(stderr, "coexist run: a shard cannot start over (--fresh): remove the cube's "
+                        "journal directory by hand if that is meant\n");
+        return CX_EXIT_BAD_INPUT;
+    }
 
     int provided = 0, rank = 0, code = CX_EXIT_OK, rc = CX_OK;
     if (MPI_Init_thread(&argc, &argv, MPI_THREAD_FUNNELED, &provided) != MPI_SUCCESS) {
@@ -225,12 +295,17 @@ int cx_cmd_run(int argc, char **argv)
         }
     } else {
         if (rank == 0 && !o.quiet)
-            print_summary(&st, plan, o.flop_rate);
+            print_summary(&st, plan, o.flop_rate, o.shard_count > 0);
         if (!st.complete) {
             if (rank == 0)
                 fprintf(stderr, "coexist run: stopped before every cell was done; rerun the "
                                 "same command to continue\n");
             code = CX_EXIT_INCOMPLETE;
+        } else if (rank == 0 && o.shard_count > 0) {
+            fprintf(stderr,
+                    "coexist run: shard %d/%d done; when every shard is done, `coexist merge "
+                    "%s -o %s` builds the cube\n",
+                    o.shard_index, o.shard_count, file, out);
         }
     }
     cx_plan_destroy(&plan);

@@ -15,6 +15,7 @@ int cx_cmd_status(int argc, char **argv);
 int cx_cmd_report(int argc, char **argv);
 int cx_cmd_replay(int argc, char **argv);
 int cx_cmd_jobs(int argc, char **argv);
+int cx_cmd_merge(int argc, char **argv);
 
 /* Map a status code from the library to an exit code, after printing the error trace. */
 int cx_cli_fail(const char *prog, int rc);

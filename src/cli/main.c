@@ -24,6 +24,7 @@ static const cx_command commands[] = {
     {"status", cx_cmd_status, "progress of a cube: cells done, failures, time left, journals"},
     {"report", cx_cmd_report, "ensemble tables, capacity, region maps and CSV from a cube"},
     {"replay", cx_cmd_replay, "recompute one cell of a cube and check it bit for bit"},
+    {"merge", cx_cmd_merge, "assemble shard and run journals into a sweep's cube"},
     {"jobs", cx_cmd_jobs, "write a SLURM batch script for a sweep, sized from its cost estimate"},
 };
 

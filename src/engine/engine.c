@@ -20,6 +20,13 @@
  * coordinator learns only how many cells of each status a batch produced. A result depends only
  * on the study and the cell (cx_cell_compute is deterministic), never on the rank, the order or
  * a restart, so the result datasets are the same bytes for any rank count.
+ *
+ * Shards (shards.c) run the same way on a share of the cells and write only journals; a merge
+ * computes nothing and replays every journal into the cube. A stop request (a signal before a
+ * batch system's time limit) ends the hand-out at once; cells being computed may finish within
+ * a grace period, after which a watchdog thread leaves them (they stay not done) and ends the
+ * process with the incomplete exit status, because a cell cannot be interrupted safely
+ * midway and the batch system's kill follows soon after (PLATFORM.md measured 3-24 s).
  */
 #define _GNU_SOURCE
 #include <dirent.h>
@@ -67,6 +74,7 @@ void cx_engine_opts_default(cx_engine_opts *o)
      * dense solves): an assumption for the estimate, not a measurement. */
     o->flop_rate = CX_ASSUMED_FLOP_RATE;
     o->blas_threads = 1;
+    o->grace_seconds = 60.0;
 }
 
 static double now_wall(void)
@@ -139,7 +147,8 @@ typedef struct computer {
     double last_sync;
     double compute_seconds;
     double write_seconds;
-    cx_cube *cube; /* NULL on rank 0's computing thread: the coordinator writes for it */
+    cx_cube *cube;    /* NULL on rank 0's computing thread: the coordinator writes for it */
+    int journal_only; /* shard mode: no cube, records go only to the journal */
 } computer;
 
 static int computer_checkpoint(computer *w)
@@ -180,6 +189,17 @@ static int compute_batch(computer *w, const int64_t *cells, cx_idx n, int64_t *c
         cx_record_encode(w->result, t1 - t0, now_wall(), w->rank, w->plan->max_runs,
                          w->plan->max_tasks, w->record);
         CX_TRY(cx_journal_append(w->journal, w->record));
+        /* After a stop request the grace watchdog may end the process at any moment: hand
+         * each record to the operating system as soon as it exists. */
+        if (stop_requested)
+            CX_TRY(cx_journal_flush(w->journal));
+        if (w->journal_only) {
+            w->write_seconds += now_mono() - t1;
+            if (now_mono() - w->last_sync >= w->checkpoint_seconds)
+                CX_TRY(computer_checkpoint(w));
+            (*ndone)++;
+            continue;
+        }
         if (w->lock != NULL)
             pthread_mutex_lock(w->lock);
         memcpy(w->pending + (size_t)w->npending * w->rs, w->record, w->rs);
@@ -504,7 +524,7 @@ static int coordinate(coord *c, const cx_engine_opts *o, cx_cube *cube, double *
                 last_ckpt = t;
             }
             pthread_mutex_unlock(&c->lw->lock);
-            if (n > 0) {
+            if (n > 0 && cube != NULL) {
                 double w0 = now_mono();
                 CX_TRY(cx_cube_write_records(cube, drain, n));
                 *write_seconds += now_mono() - w0;
@@ -656,9 +676,21 @@ static int prepare(const cx_plan *plan, const cx_engine_opts *o, int ranks, doub
                  "%s exists and is not a coexist cube; it was not touched (choose another "
                  "output path)",
                  o->cube);
+    cx_journal_dir(o->cube, jdir, sizeof jdir);
+    if (o->shard_count > 0) {
+        /* A shard never creates or writes the cube; it only checks that a cube already there
+         * belongs to this study. Array tasks start together: the directory may appear under
+         * our feet. */
+        CX_REQUIRE(!o->fresh, CX_ERR_INVALID, "a shard cannot start over (--fresh)");
+        if (kind == CX_CUBE_OURS)
+            CX_TRY(cx_cube_check(o->cube, plan));
+        if (!is_dir(jdir) && mkdir(jdir, 0777) != 0 && errno != EEXIST)
+            CX_RAISE(CX_ERR_IO, "cannot create the journal directory %s: %s", jdir,
+                     strerror(errno));
+        goto done;
+    }
     if (kind == CX_CUBE_OURS && access(o->cube, W_OK) != 0)
         CX_RAISE(CX_ERR_INVALID, "cannot write %s: the file is not writable", o->cube);
-    cx_journal_dir(o->cube, jdir, sizeof jdir);
     if (kind == CX_CUBE_OURS && !o->fresh)
         CX_TRY(cx_cube_check(o->cube, plan));
     if (o->fresh) {
@@ -671,7 +703,7 @@ static int prepare(const cx_plan *plan, const cx_engine_opts *o, int ranks, doub
         CX_TRY(cx_cube_create(o->cube, plan, ranks, start));
         *created = 1;
     }
-    if (!is_dir(jdir) && mkdir(jdir, 0777) != 0)
+    if (!is_dir(jdir) && mkdir(jdir, 0777) != 0 && errno != EEXIST)
         CX_RAISE(CX_ERR_IO, "cannot create the journal directory %s: %s", jdir, strerror(errno));
 done:
     return rc;
@@ -699,16 +731,18 @@ static int replay_one(void *arg, const unsigned char *rec)
     r->n++;
     r->merged++;
     if (r->n == PENDING_MAX) {
-        CX_TRY(cx_cube_write_records(r->cube, r->buf, r->n));
+        if (r->cube != NULL)
+            CX_TRY(cx_cube_write_records(r->cube, r->buf, r->n));
         r->n = 0;
     }
 done:
     return rc;
 }
 
-/* Rank 0: replay every journal of the cube into it. */
+/* Rank 0: replay every journal of the cube (or those whose name starts with `prefix`) into it,
+ * or, with no cube open, only into the done mask. */
 static int replay_all(const cx_plan *plan, const char *cube_path, cx_cube *cube, uint8_t *done,
-                      cx_idx *merged, int64_t *dropped, int quiet)
+                      const char *prefix, cx_idx *merged, int64_t *dropped, int quiet)
 {
     int rc = CX_OK;
     char jdir[CX_PATH_LEN];
@@ -724,6 +758,8 @@ static int replay_all(const cx_plan *plan, const char *cube_path, cx_cube *cube,
             size_t len = strlen(e->d_name);
             if (len <= 4 || strcmp(e->d_name + len - 4, ".jnl") != 0)
                 continue;
+            if (prefix != NULL && strncmp(e->d_name, prefix, strlen(prefix)) != 0)
+                continue;
             char p[CX_PATH_LEN + 300];
             cx_replay_stats st;
             snprintf(p, sizeof p, "%s/%s", jdir, e->d_name);
@@ -737,7 +773,8 @@ static int replay_all(const cx_plan *plan, const char *cube_path, cx_cube *cube,
                         (long long)st.bad_crc);
         }
     }
-    CX_TRY(cx_cube_write_records(cube, r.buf, r.n));
+    if (cube != NULL)
+        CX_TRY(cx_cube_write_records(cube, r.buf, r.n));
     *merged = r.merged;
 done:
     if (d != NULL)
@@ -761,7 +798,13 @@ done:
 static void print_start(const cx_plan *plan, const cx_units *u, const cx_engine_stats *st, int size,
                         int computes, long cores, const cx_engine_opts *o)
 {
-    fprintf(stderr, "coexist run: study \"%s\" -> %s\n", plan->name, o->cube);
+    fprintf(stderr, "coexist %s: study \"%s\" -> %s\n", o->merge_only ? "merge" : "run", plan->name,
+            o->cube);
+    if (o->shard_count > 0)
+        fprintf(stderr,
+                "  shard %d of %d (numbered from 0): its journals only; `coexist merge` builds "
+                "the cube\n",
+                o->shard_index, o->shard_count);
     fprintf(stderr, "  grid: ");
     for (int i = 0; i < plan->naxes; i++)
         fprintf(stderr, "%s%s[%lld]", i ? " x " : "", plan->axes[i].name,
@@ -784,9 +827,59 @@ static void print_start(const cx_plan *plan, const cx_units *u, const cx_engine_
     fflush(stderr);
 }
 
+/* The grace watchdog: once a stop is requested, cells still computing after grace seconds are
+ * left; the process ends with exit status 3 (CX_EXIT_INCOMPLETE of the command line). Records
+ * of finished cells are already with the operating system (compute_batch flushes each one
+ * after a stop request), so a rerun or a merge finds them in the journals. The watchdog runs
+ * only during the run phase and is stopped before the final cube writes, so it never ends a
+ * process that is closing the cube. */
+typedef struct watchdog {
+    pthread_t thread;
+    pthread_mutex_t lock;
+    int quit;
+    double grace;
+    int rank;
+} watchdog;
+
+static void *watchdog_main(void *arg)
+{
+    watchdog *wd = arg;
+    double since = -1.0;
+    for (;;) {
+        pthread_mutex_lock(&wd->lock);
+        int quit = wd->quit;
+        pthread_mutex_unlock(&wd->lock);
+        if (quit)
+            break;
+        if (stop_requested && since < 0) {
+            since = now_mono();
+            if (wd->rank == 0)
+                fprintf(stderr,
+                        "coexist: stop requested: no more work is handed out; cells being "
+                        "computed have %.0f s to finish\n",
+                        wd->grace);
+        }
+        if (since >= 0 && now_mono() - since > wd->grace) {
+            fprintf(stderr,
+                    "coexist: rank %d: cells still computing %.0f s after the stop request are "
+                    "left not done; exiting with status 3\n",
+                    wd->rank, wd->grace);
+            fflush(stderr);
+            _exit(3);
+        }
+        nap(50000000L);
+    }
+    return NULL;
+}
+
 int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const cx_engine_ops *ops,
                   const cx_engine_opts *o, cx_engine_stats *st)
 {
+    int shard = o->shard_count > 0;
+    uint8_t *shard_cells = NULL;
+    watchdog wd;
+    int wd_started = 0, wd_init = 0;
+    memset(&wd, 0, sizeof wd);
     int rc = CX_OK, rank = 0, size = 1, created = 0, computes = 0;
     double start = now_wall();
     cx_cube *cube = NULL;
@@ -815,7 +908,8 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
             goto done;
         }
     }
-    CX_TRY(agree(comm, cx_cube_open(comm, o->cube, plan, &cube)));
+    if (!shard)
+        CX_TRY(agree(comm, cx_cube_open(comm, o->cube, plan, &cube)));
 
     /* Rank 0: what is done, journals merged, the schedule. */
     int lrc = CX_OK;
@@ -824,29 +918,58 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     CX_TRY(node_ranks(comm, &on_node));
     computes =
         size == 1 || (o->coordinator_computes < 0 ? on_node <= cores : o->coordinator_computes > 0);
+    if (o->merge_only)
+        computes = 0;
+    char prefix[64];
+    snprintf(prefix, sizeof prefix, "shard-%04d-of-%04d-", o->shard_index, o->shard_count);
     if (rank == 0) {
         done = cx_calloc_array((size_t)plan->ncells, 1);
         lrc = done == NULL ? CX_FAIL(CX_ERR_NOMEM, "out of memory") : CX_OK;
-        if (lrc == CX_OK)
+        if (lrc == CX_OK && shard) {
+            shard_cells = cx_calloc_array((size_t)plan->ncells, 1);
+            lrc = shard_cells == NULL
+                      ? CX_FAIL(CX_ERR_NOMEM, "out of memory")
+                      : cx_shard_mask(plan, o->shard_index, o->shard_count, shard_cells, NULL);
+        }
+        if (lrc == CX_OK && cube != NULL)
             lrc = cx_cube_read_done(cube, done);
-        if (lrc == CX_OK) {
-            for (cx_idx k = 0; k < plan->ncells; k++)
-                st->done_in_cube += done[k] != 0;
-            lrc = replay_all(plan, o->cube, cube, done, &st->replayed, &st->dropped, o->quiet);
+        if (lrc == CX_OK && cube == NULL) {
+            /* A shard reads an existing cube serially and only to skip what is done. */
+            int kind = CX_CUBE_ABSENT;
+            lrc = cx_cube_probe(o->cube, &kind);
+            if (lrc == CX_OK && kind == CX_CUBE_OURS) {
+                cx_cube_summary sum_c;
+                uint8_t *cdone = NULL;
+                lrc = cx_cube_summarize(o->cube, &sum_c, &cdone);
+                if (lrc == CX_OK && cdone != NULL)
+                    memcpy(done, cdone, (size_t)plan->ncells);
+                free(cdone);
+            }
         }
         if (lrc == CX_OK) {
             for (cx_idx k = 0; k < plan->ncells; k++)
-                done[k] = !done[k];
+                st->done_in_cube += done[k] != 0 && (shard_cells == NULL || shard_cells[k]);
+            lrc = replay_all(plan, o->cube, cube, done, shard ? prefix : NULL, &st->replayed,
+                             &st->dropped, o->quiet);
+        }
+        if (lrc == CX_OK) {
+            for (cx_idx k = 0; k < plan->ncells; k++)
+                done[k] = !done[k] && (shard_cells == NULL || shard_cells[k]) && !o->merge_only;
             lrc = cx_units_build(plan, done, MAX_BATCH_CELLS, &units);
         }
     }
     CX_TRY(agree(comm, lrc));
 
     if (rank != 0 || computes) {
-        cx_journal_path(o->cube, rank, jpath, sizeof jpath);
+        if (shard)
+            cx_journal_shard_path(o->cube, o->shard_index, o->shard_count, rank, jpath,
+                                  sizeof jpath);
+        else
+            cx_journal_path(o->cube, rank, jpath, sizeof jpath);
         lrc = computer_init(&comp, plan, s, ops, o, rank, jpath);
         comp_ready = 1;
         comp.cube = rank == 0 ? NULL : cube;
+        comp.journal_only = shard;
     }
     CX_TRY(agree(comm, lrc));
     if (rank == 0) {
@@ -860,6 +983,12 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     }
 
     MPI_TRY(MPI_Barrier(comm));
+    wd.grace = o->grace_seconds;
+    wd.rank = rank;
+    pthread_mutex_init(&wd.lock, NULL);
+    wd_init = 1;
+    if (!o->merge_only && pthread_create(&wd.thread, NULL, watchdog_main, &wd) == 0)
+        wd_started = 1;
     double t_run = now_mono(), cpu0 = thread_cpu();
     int run_rc = CX_OK;
     if (rank == 0) {
@@ -927,7 +1056,7 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
             if (run_rc == CX_OK && lw->failed)
                 run_rc = CX_FAIL(CX_ERR_INTERNAL, "rank 0's computing thread failed");
             /* Records the coordinator has not drained yet. */
-            if (run_rc == CX_OK)
+            if (run_rc == CX_OK && cube != NULL)
                 run_rc = cx_cube_write_records(cube, comp.pending, comp.npending);
             comp.npending = 0;
         }
@@ -945,6 +1074,13 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     }
     st->wall = now_mono() - t_run;
     st->rank0_cpu = thread_cpu() - cpu0;
+    if (wd_started) {
+        pthread_mutex_lock(&wd.lock);
+        wd.quit = 1;
+        pthread_mutex_unlock(&wd.lock);
+        pthread_join(wd.thread, NULL);
+        wd_started = 0;
+    }
     rc = agree(comm, run_rc);
 
     /* Sums over ranks: stage counts, compute and write seconds. */
@@ -972,9 +1108,15 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     int64_t fin[2] = {0, 0};
     if (rank == 0) {
         fin[0] = st->computed;
-        fin[1] = st->done_in_cube + st->replayed + st->computed == plan->ncells;
+        fin[1] = shard ? st->computed == st->scheduled
+                       : st->done_in_cube + st->replayed + st->computed == plan->ncells;
     }
     MPI_TRY(MPI_Bcast(fin, 2, MPI_INT64_T, 0, comm));
+    if (shard) {
+        /* Journals only: make them durable, leave the cube to `coexist merge`. */
+        st->complete = (int)fin[1];
+        goto done;
+    }
     double end = now_wall();
     MPI_TRY(MPI_Bcast(&end, 1, MPI_DOUBLE, 0, comm));
     MPI_TRY(MPI_Bcast(&start, 1, MPI_DOUBLE, 0, comm));
@@ -999,6 +1141,15 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     }
 done:
     (void)created;
+    if (wd_started) {
+        pthread_mutex_lock(&wd.lock);
+        wd.quit = 1;
+        pthread_mutex_unlock(&wd.lock);
+        pthread_join(wd.thread, NULL);
+    }
+    if (wd_init)
+        pthread_mutex_destroy(&wd.lock);
+    free(shard_cells);
     if (comp_ready)
         computer_free(&comp);
     if (cube != NULL)
