@@ -207,7 +207,7 @@ def scenario_crash(wd):
     args = [MPI, "-n", "3", BIN, BIG, "-o", cube, "--checkpoint", "600"]
     args.insert(4, "run")
     proc = subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
-    rs = 80 + 4 * (64 + 8 * 2) + 8  # record size for 4 runs and 2 tasks (src/engine/record.c)
+    rs = 88 + 4 * (72 + 8 * 2) + 8  # record size for 4 runs and 2 tasks (src/engine/record.c)
     jnl = os.path.join(cube + ".journal", "rank-0001.jnl")
     killed = False
     t0 = time.time()

@@ -252,6 +252,7 @@ def build_synthetic(path):
                 d.dims[4].attach_scale(task)
         var("outcome", outcome, oenum)
         var("attractor", np.full(shape + (max_runs,), -1, dtype=np.int8), np.int8)
+        var("cluster", np.full(shape + (max_runs,), -1, dtype=np.int8), np.int8)
         var("distance", np.full(shape + (max_runs, max_tasks), np.nan), np.float64)
         for nm in ("coverage", "roundness", "rotation", "period", "valid_time", "lyapunov",
                    "stop_time"):
@@ -259,6 +260,9 @@ def build_synthetic(path):
         var("status", status, senum)
         var("multifunctional", multi, np.int8)
         var("untrained", np.where(done == 1, 3, -1).astype(np.int16), np.int16)
+        for kind, n in (("untrained_fixed_points", 1), ("untrained_cycles", 2),
+                        ("untrained_aperiodic", 0)):
+            var(kind, np.where(done == 1, n, -1).astype(np.int16), np.int16)
         for nm in ("rho_unscaled", "wout_norm", "wout_square_norm", "wall_time"):
             var(nm, np.full(shape, np.nan), np.float64)
         var("done", done, np.uint8)
@@ -302,6 +306,7 @@ def majority(classes):
 
 def synthetic_scenario(work):
     import csv
+    import h5py
     os.makedirs(work, exist_ok=True)
     cube = os.path.join(work, "synthetic.h5")
     expect = build_synthetic(cube)
@@ -313,6 +318,16 @@ def synthetic_scenario(work):
     if p.returncode != 0:
         finish()
     print(p.stdout)
+    # distinct untrained attractors: the synthetic cube stores 1 fixed point, 2 periodic orbits
+    # and 0 aperiodic attractors in every computed cell
+    with h5py.File(cube, "r") as f:
+        computed = int(np.sum((f["done"][...] == 1) & (f["status"][...] == 1)))
+    lines = {k: l for l in p.stdout.split("\n") for k in ("fixed points", "periodic orbits",
+                                                          "aperiodic attractors") if k in l}
+    want = {"fixed points": computed, "periodic orbits": 2 * computed, "aperiodic attractors": 0}
+    ok = all(k in lines and (" %d in all" % v) in lines[k] for k, v in want.items())
+    check("summary of distinct untrained attractors by kind", ok,
+          "; ".join(lines.get(k, "missing").strip() for k in want), "the synthetic cube's counts")
     # capacity, hand-derived from the counts above and recomputed from scipy's intervals
     hand = {50: (2, 1, 3), 100: (3, 2, 3), 200: (2, 2, 4), 400: (0, 0, 4)}
     rows = list(csv.DictReader(open(os.path.join(out, "capacity.csv"))))

@@ -10,6 +10,7 @@
 #include "coexist/error.h"
 #include "coexist/study.h"
 #include "testlib.h"
+#include "cell/cell_impl.h"
 
 void openblas_set_num_threads(int num_threads);
 
@@ -213,8 +214,44 @@ static void test_demo_window(void)
     cx_study_destroy(&s);
 }
 
+/* Grouping runs that end on the same untrained attractor (src/cell/untrained.c) on a made-up
+ * result whose answer is known by construction: two runs on one fixed point, one on another,
+ * two on one periodic orbit, one on an orbit of the same shape with a period 20 % longer, one
+ * aperiodic, one reconstructed (not untrained). */
+static void test_untrained_groups(void)
+{
+    cx_cell_result r;
+    memset(&r, 0, sizeof r);
+    r.nruns = 8;
+    int outcome[8] = {CX_OUT_FIXED_POINT,         CX_OUT_FIXED_POINT,     CX_OUT_FIXED_POINT,
+                      CX_OUT_UNTRAINED_CYCLE,     CX_OUT_UNTRAINED_CYCLE, CX_OUT_UNTRAINED_CYCLE,
+                      CX_OUT_UNTRAINED_APERIODIC, CX_OUT_RECONSTRUCTED};
+    double centre[CX_MAX_RUNS][CX_MAX_DIM] = {{0.4, 0.1},  {0.41, 0.1}, {-1.3, 0.2}, {0.0, 0.0},
+                                              {0.01, 0.0}, {0.0, 0.0},  {0.0, 0.0},  {0.0, 0.0}};
+    double amp[CX_MAX_RUNS] = {0, 0, 0, 1.2, 1.21, 1.2, 1.5, 1.0};
+    double period[8] = {NAN, NAN, NAN, 3.1, 3.11, 3.72, NAN, 2.6};
+    for (int j = 0; j < 8; j++) {
+        r.runs[j].outcome = outcome[j];
+        r.runs[j].period = period[j];
+    }
+    cx_cell_cluster_untrained(&r, (const double(*)[CX_MAX_DIM])centre, amp, 2, 1.0, 0.1, 0.05);
+    char d[160];
+    snprintf(d, sizeof d,
+             "%d distinct: %d fixed, %d cycles, %d aperiodic; clusters %d %d %d %d %d %d %d %d",
+             r.untrained, r.untrained_kinds[0], r.untrained_kinds[1], r.untrained_kinds[2],
+             r.runs[0].cluster, r.runs[1].cluster, r.runs[2].cluster, r.runs[3].cluster,
+             r.runs[4].cluster, r.runs[5].cluster, r.runs[6].cluster, r.runs[7].cluster);
+    int ok = r.untrained == 5 && r.untrained_kinds[0] == 2 && r.untrained_kinds[1] == 2 &&
+             r.untrained_kinds[2] == 1 && r.runs[0].cluster == r.runs[1].cluster &&
+             r.runs[2].cluster != r.runs[0].cluster && r.runs[3].cluster == r.runs[4].cluster &&
+             r.runs[5].cluster != r.runs[3].cluster && r.runs[7].cluster == -1;
+    cx_test_true("distinct untrained attractors grouped by class, centre, amplitude, period", ok, d,
+                 "constructed case (leader clustering, Hartigan 1975)");
+}
+
 int main(void)
 {
+    test_untrained_groups();
     openblas_set_num_threads(1);
     test_determinism_and_reuse();
     test_mirror();

@@ -8,7 +8,7 @@ PACKAGES="build-essential g++ cmake pkg-config git
 openmpi-bin libopenmpi-dev
 libhdf5-openmpi-dev hdf5-tools
 libopenblas-dev liblapacke-dev libarpack2-dev
-libyaml-dev libcairo2-dev
+libyaml-dev libcairo2-dev libsleef-dev
 libpcg-cpp-dev
 python3 python3-numpy python3-scipy python3-h5py python3-xarray python3-h5netcdf python3-netcdf4
 netcdf-bin libxml2-utils"

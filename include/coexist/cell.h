@@ -7,6 +7,7 @@
  *               scale, self loops                         (M unscaled and |lambda|max(M))
  *   input    <- network key + task dimension, input layout (W_in, bias law)
  *   drive    <- input key + spectral radius, model, rate, leak, input scaling, bias, features,
+ *               tanh evaluation,
  *               tasks, dt, washout, length, stride         (G_k, C_k, end states r_k(T))
  *   solve    <- drive key + blend / weights + ridge        (W_out)
  *   probe    <- solve key + probe and classify settings    (labels and metrics)
@@ -50,7 +51,8 @@ typedef struct cx_cell_result {
     int ntasks;
     int nruns;               /* ntasks + random starts */
     int multifunctional;     /* 1 when every task's own run is reconstructed */
-    int untrained;           /* runs from random starts that found an untrained attractor */
+    int untrained;           /* distinct untrained attractors the runs ended on (any start) */
+    int untrained_kinds[3];  /* of which fixed points, periodic orbits, aperiodic attractors */
     double rho_unscaled;     /* |lambda|max of the unscaled M */
     double wout_norm;        /* Frobenius norm of W_out */
     double wout_square_norm; /* Frobenius norm of the block of W_out on the squared states */
@@ -83,6 +85,12 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell,
                     cx_cell_result *out /* out */);
 
 void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c /* out */);
+/* How many closed-loop runs of this workspace ended early on a fixed point (probe.early_stop). */
+int64_t cx_cell_ws_settled(const cx_cell_ws *ws);
+
+/* Check, before any work, that a dump can be written to `path`: it must not exist (unless
+ * `overwrite`) and its directory must exist. CX_ERR_INVALID with a message otherwise. */
+int cx_cell_dump_check(const char *path, int overwrite);
 
 /* Write the kept matrices and trajectories of the last cell to an HDF5 file (serial).
  * Refuses to overwrite an existing file unless `overwrite`. */

@@ -84,8 +84,11 @@ void cx_class_box(const double *const *x, const cx_idx *n, int ntasks, int dim, 
 
 /* Metrics of one run. Fields that do not apply are NaN. */
 typedef struct cx_run_metrics {
-    int outcome;                   /* enum cx_outcome */
-    int attractor;                 /* index of the trained attractor landed on, or -1 */
+    int outcome;   /* enum cx_outcome */
+    int attractor; /* index of the trained attractor landed on, or -1 */
+    int cluster;   /* the cell's distinct untrained attractor this run ended on, or -1 (set by the
+                      cell pipeline, src/cell/untrained.c) */
+    int spare;     /* always 0: keeps the struct free of padding, so results compare bytewise */
     double distance[CX_MAX_TASKS]; /* mean nearest-neighbour distance to each trained attractor */
     double coverage;               /* of the matched attractor, else of the own one, else NaN */
     double roundness;              /* signal units */

@@ -73,9 +73,10 @@ typedef struct cx_rcube {
     uint8_t *done;
     signed char *status;
     signed char *multifunctional;
-    signed char *outcome; /* ncells x max_runs */
-    int *ntasks;          /* per cell: tasks of the cell (0 where it does not bind) */
-    int ntasks_exact;     /* 1 when ntasks came from binding the stored sweep file */
+    short *untrained_kinds; /* ncells x 3: distinct fixed points, periodic orbits, aperiodic */
+    signed char *outcome;   /* ncells x max_runs */
+    int *ntasks;            /* per cell: tasks of the cell (0 where it does not bind) */
+    int ntasks_exact;       /* 1 when ntasks came from binding the stored sweep file */
 } cx_rcube;
 
 /* Open a cube and read its axes, labels and per-cell outcome data. Fails with CX_ERR_INVALID

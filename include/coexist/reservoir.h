@@ -24,6 +24,13 @@ enum cx_features {
     CX_FEAT_LINEAR_SQUARES_CONSTANT = 2 /* [r; r^2; 1], 2N + 1 */
 };
 
+/* How tanh is evaluated in the stepping kernels. The two give different last bits, so the
+ * choice is a sweep-file key (reservoir.tanh) and part of a study's canonical form. */
+enum cx_tanh {
+    CX_TANH_LIBM = 0,  /* the C library's tanh, one call per node */
+    CX_TANH_VECTOR = 1 /* SLEEF's SIMD tanh, 3.5 ULP bound (see tanh.c) */
+};
+
 /* Reservoir parameters of one cell; zero-initialise before filling. */
 typedef struct cx_res_params {
     int model;              /* enum cx_model */
@@ -34,6 +41,7 @@ typedef struct cx_res_params {
     int input_layout;       /* enum cx_input_layout */
     double bias;            /* b_i ~ U(-bias, bias); 0 = no bias */
     int features;           /* enum cx_features */
+    int tanh_mode;          /* enum cx_tanh */
 } cx_res_params;
 
 /* Training parameters of one cell (times in time units of the task signals). */
@@ -60,6 +68,7 @@ typedef struct cx_reservoir {
     double rate;
     double leak;
     double input_scaling;
+    int tanh_mode;      /* enum cx_tanh */
     const cx_csr *m;    /* borrowed, already scaled to the target spectral radius */
     const double *w_in; /* borrowed */
     const double *bias; /* borrowed, length n, or NULL for none */
@@ -69,7 +78,7 @@ typedef struct cx_reservoir {
 typedef struct cx_res_ws cx_res_ws;
 int cx_res_ws_alloc(cx_res_ws **ws /* out */, cx_idx n, int dim, int features);
 void cx_res_ws_free(cx_res_ws **ws);
-/* Number of feature vectors buffered between two Gram updates (default 192); reallocates the
+/* Number of feature vectors buffered between two Gram updates (default 512); reallocates the
  * block, so call it outside any loop. Results agree for every block size up to rounding. */
 int cx_res_ws_set_block(cx_res_ws *ws, cx_idx block);
 /* Wall-clock seconds spent in Gram updates (dsyrk + dgemm) by this workspace since allocation. */
@@ -111,6 +120,42 @@ void cx_res_readout(const cx_reservoir *res, const double *w_out, const double *
 int cx_res_probe(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
                  cx_idx nsteps, const double *lo, const double *hi, double *r,
                  double *y_out /* out */, cx_idx *steps_done /* out */);
+
+/* Early stop of a closed-loop run that has settled on a fixed point. The run is settled at step
+ * i when each of the last `window` steps changed every state coordinate by at most state_step
+ * and every output coordinate by at most output_step (max norms). A slow passage near a
+ * saddle could pass such a test only with tolerances far above the rounding level of a step,
+ * so callers choose them tiny and the window long (cell.c: one tail length). */
+typedef struct cx_res_settle {
+    cx_idx window;      /* steps; 0 = never stop early */
+    double state_step;  /* max-norm bound of each step's change of r */
+    double output_step; /* max-norm bound of each step's change of y */
+} cx_res_settle;
+
+/* cx_res_probe with an early stop on a fixed point (settle may be NULL: no early stop). When the
+ * run settles at step i, rows i+1..nsteps of y_out are filled with row i (the settled output),
+ * *steps_done = nsteps, *settled_at = i and r holds the state of step i; otherwise
+ * *settled_at = -1 and everything is as in cx_res_probe. The fill is what the full-horizon run
+ * would give up to the drift the test allows (window * output_step at most per window). */
+int cx_res_probe_settle(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                        cx_idx nsteps, const double *lo, const double *hi,
+                        const cx_res_settle *settle, double *r, double *y_out /* out */,
+                        cx_idx *steps_done /* out */, cx_idx *settled_at /* out */);
+
+/* Room for batches of up to nb closed-loop runs (6 blocks of n x nb doubles); grows only, so
+ * call it once before the probes of a cell, never in a loop. */
+int cx_res_ws_set_batch(cx_res_ws *ws, int nb);
+
+/* nruns closed-loop runs of one reservoir and readout advanced together as one n x B block
+ * (batch.c). Run b starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim,
+ * or y_out / y_out[b] NULL), steps_done[b] and settled_at[b] exactly as cx_res_probe_settle
+ * would for that run alone, bit for bit, whatever nruns. nruns <= the size given to
+ * cx_res_ws_set_batch. Not collective. */
+int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                       cx_idx nsteps, const double *lo, const double *hi,
+                       const cx_res_settle *settle, int nruns, double *const *r,
+                       double *const *y_out /* out */, cx_idx *steps_done /* out */,
+                       cx_idx *settled_at /* out */);
 
 /* Drive with a constant input point p for nsteps (for "drive-point" random starts). */
 int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *p, double dt,

@@ -30,7 +30,8 @@ typedef struct cx_probe_params {
     int start_mode;    /* enum cx_start_mode */
     double start_box;
     double drive_time;
-    int lyapunov; /* 1 = estimate the largest Lyapunov exponent of each run */
+    int lyapunov;   /* 1 = estimate the largest Lyapunov exponent of each run */
+    int early_stop; /* 1 = end a run that has settled on a fixed point (labels unchanged) */
     double lyapunov_time;
 } cx_probe_params;
 

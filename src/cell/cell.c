@@ -25,6 +25,11 @@
 #include "coexist/task.h"
 #include "cell_impl.h"
 
+/* Closed-loop runs advanced together as one block (cx_res_probe_batch): enough to share each
+ * pass over M among several runs, few enough that the n x B blocks stay in the outer caches.
+ * Results do not depend on it (bit for bit). */
+#define CX_CELL_BATCH 8
+
 static double now(void)
 {
     struct timespec ts;
@@ -111,6 +116,7 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     cx_res_ws_free(&ws->rws);
     cx_class_ws_free(&ws->cws);
     free(ws->y);
+    free(ws->run_r);
     free(ws->truth);
     free(ws->kept_y);
     free(ws->kept_start);
@@ -126,6 +132,11 @@ void cx_cell_ws_keep(cx_cell_ws *ws, int keep)
 void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c)
 {
     *c = ws->counts;
+}
+
+int64_t cx_cell_ws_settled(const cx_cell_ws *ws)
+{
+    return ws->settled;
 }
 
 /* Stage 1: M (unscaled) and its spectral radius, keyed by the network parameters. */
@@ -272,6 +283,7 @@ static void assemble(const cx_cell_ws *ws, const cx_cell_params *p, cx_reservoir
     res->rate = p->res.rate;
     res->leak = p->res.leak;
     res->input_scaling = p->res.input_scaling;
+    res->tanh_mode = p->res.tanh_mode;
     res->m = &ws->m;
     res->w_in = ws->w_in;
     res->bias = p->res.bias > 0.0 ? ws->bias : NULL;
@@ -330,16 +342,24 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
 {
     int rc = CX_OK;
     cx_idx len = (ws->horizon + 1) * p->dim;
-    if (ws->y_cap < len) {
+    if (ws->y_cap < (cx_idx)nruns * len) {
         free(ws->y);
         ws->y = NULL;
         ws->y_cap = 0;
         free(ws->truth);
         ws->truth = NULL;
-        CX_ALLOC(ws->y, len);
+        CX_ALLOC(ws->y, (cx_idx)nruns * len);
         CX_ALLOC(ws->truth, len);
-        ws->y_cap = len;
+        ws->y_cap = (cx_idx)nruns * len;
     }
+    if (ws->run_r_cap < (cx_idx)nruns * p->net.nodes) {
+        free(ws->run_r);
+        ws->run_r = NULL;
+        ws->run_r_cap = 0;
+        CX_ALLOC(ws->run_r, (cx_idx)nruns * p->net.nodes);
+        ws->run_r_cap = (cx_idx)nruns * p->net.nodes;
+    }
+    CX_TRY(cx_res_ws_set_batch(ws->rws, nruns < CX_CELL_BATCH ? nruns : CX_CELL_BATCH));
     if (ws->cws == NULL || ws->cws_cap < ws->horizon + 1 || ws->cws_dim != p->dim) {
         cx_class_ws_free(&ws->cws);
         CX_TRY(cx_class_ws_alloc(&ws->cws, ws->horizon + 1, p->dim));
@@ -424,6 +444,7 @@ static void result_init(cx_cell_result *out, const cx_cell_params *p, cx_idx cel
             m->distance[k] = NAN;
         m->coverage = m->roundness = m->rotation = m->period = NAN;
         m->valid_time = m->lyapunov = m->stop_time = NAN;
+        m->cluster = -1;
     }
 }
 
@@ -484,22 +505,51 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cel
     cx_class_box(train_sig, train_len, p->ntasks, p->dim, p->cls.bound, lo, hi);
     cx_idx n_tail = cx_cell_steps(p->probe.tail, p->train.dt);
     const cx_attractor *atts[CX_MAX_TASKS];
-    for (int k = 0; k < p->ntasks; k++)
+    double big_s = 0.0;
+    for (int k = 0; k < p->ntasks; k++) {
         atts[k] = ws->att[k];
+        big_s += cx_attractor_scale(ws->att[k]) / (double)p->ntasks;
+    }
+    /* Early stop on a fixed point: the run must stand still for one whole tail, every step
+     * moving the state by at most 1e-11 (max norm; states are O(1)) and the output by at most
+     * 1e-6 of the fixed-point threshold fixed_tol * S (S as in the classifier). The tail at the
+     * stop is then a fixed point by the classifier's own test with a margin of 1e6 / n_tail, and
+     * the settled output fills the rest of the run. Tolerances: our choice, no published source. */
+    cx_res_settle settle = {0, 0.0, 0.0};
+    if (p->probe.early_stop) {
+        settle.window = n_tail;
+        settle.state_step = 1e-11;
+        settle.output_step = 1e-6 * p->cls.fixed_tol * big_s;
+    }
+    /* Every run's start, then all runs advanced together in blocks of CX_CELL_BATCH (bit for
+     * bit what one run at a time gives), then each run classified. */
+    const cx_idx len = (ws->horizon + 1) * p->dim;
+    double *run_state[CX_MAX_RUNS], *run_y[CX_MAX_RUNS];
+    cx_idx steps_done[CX_MAX_RUNS], settled_at[CX_MAX_RUNS];
+    t0 = now();
+    for (int j = 0; j < r.nruns; j++) {
+        run_state[j] = ws->run_r + (cx_idx)j * p->net.nodes;
+        run_y[j] = ws->y + (cx_idx)j * len;
+        CX_TRY(run_start(ws, p, &res, j, run_state[j]));
+        if (ws->keep)
+            memcpy(ws->kept_start + (cx_idx)j * p->net.nodes, run_state[j],
+                   (size_t)p->net.nodes * sizeof *ws->r);
+    }
+    for (int j = 0; j < r.nruns; j += CX_CELL_BATCH) {
+        int nb = r.nruns - j < CX_CELL_BATCH ? r.nruns - j : CX_CELL_BATCH;
+        CX_TRY(cx_res_probe_batch(ws->rws, &res, ws->w_out, p->train.dt, ws->horizon, lo, hi,
+                                  &settle, nb, run_state + j, run_y + j, steps_done + j,
+                                  settled_at + j));
+    }
+    r.time.probes += now() - t0;
+    double tail_centre[CX_MAX_RUNS][CX_MAX_DIM], tail_amp[CX_MAX_RUNS];
     for (int j = 0; j < r.nruns; j++) {
         cx_run_metrics *m = &r.runs[j];
-        cx_idx steps_done = 0;
-        t0 = now();
-        CX_TRY(run_start(ws, p, &res, j, ws->r));
-        if (ws->keep)
-            memcpy(ws->kept_start + (cx_idx)j * p->net.nodes, ws->r,
-                   (size_t)p->net.nodes * sizeof *ws->r);
-        CX_TRY(cx_res_probe(ws->rws, &res, ws->w_out, p->train.dt, ws->horizon, lo, hi, ws->r,
-                            ws->y, &steps_done));
         ws->counts.probes++;
-        r.time.probes += now() - t0;
+        if (settled_at[j] >= 0)
+            ws->settled++;
         t0 = now();
-        cx_idx n_total = steps_done + 1;
+        cx_idx n_total = steps_done[j] + 1;
         cx_idx tail = n_tail < n_total ? n_tail : n_total;
         const double *tr = NULL;
         if (j < p->ntasks) {
@@ -510,19 +560,20 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cel
                     ws->truth[i * p->dim + d] = src[ws->sub * i * p->dim + d];
             tr = ws->truth;
         }
-        CX_TRY(cx_classify_run(ws->cws, &p->cls, atts, p->ntasks, lo, hi, ws->y, n_total, tail,
+        CX_TRY(cx_classify_run(ws->cws, &p->cls, atts, p->ntasks, lo, hi, run_y[j], n_total, tail,
                                p->dim, p->train.dt, j < p->ntasks ? j : -1, tr, m));
+        cx_cell_tail_shape(run_y[j], n_total, tail, p->dim, tail_centre[j], &tail_amp[j]);
         if (p->probe.lyapunov && m->outcome != CX_OUT_DIVERGED) {
             cx_rng rng;
             uint64_t coords[3] = {p->replicate, (uint64_t)p->net.nodes, (uint64_t)j};
             cx_rng_keyed(&rng, p->study_seed, CX_RNG_LYAPUNOV, coords, 3);
             CX_TRY(cx_res_lyapunov(ws->rws, &res, ws->w_out, p->train.dt,
                                    cx_cell_steps(p->probe.lyapunov_time, p->train.dt), 1e-8, &rng,
-                                   ws->r, &m->lyapunov));
+                                   run_state[j], &m->lyapunov));
         }
         r.time.classify += now() - t0;
         if (ws->keep) {
-            memcpy(ws->kept_y + (cx_idx)j * (ws->horizon + 1) * p->dim, ws->y,
+            memcpy(ws->kept_y + (cx_idx)j * len, run_y[j],
                    (size_t)(n_total * p->dim) * sizeof *ws->y);
             ws->kept_len[j] = n_total;
         }
@@ -532,10 +583,10 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cel
     for (int k = 0; k < p->ntasks; k++)
         if (r.runs[k].outcome != CX_OUT_RECONSTRUCTED)
             r.multifunctional = 0;
-    for (int j = p->ntasks; j < r.nruns; j++)
-        if (r.runs[j].outcome == CX_OUT_UNTRAINED_CYCLE ||
-            r.runs[j].outcome == CX_OUT_UNTRAINED_APERIODIC)
-            r.untrained++;
+    /* Distinct untrained attractors: centres and amplitudes within match_tol * S, periods
+     * within 5 % (src/cell/untrained.c). */
+    cx_cell_cluster_untrained(&r, (const double(*)[CX_MAX_DIM])tail_centre, tail_amp, p->dim, big_s,
+                              p->cls.match_tol, 0.05);
 finish:
     r.time.total = now() - t_start;
     *out = r;

@@ -12,6 +12,15 @@
 void cx_key_u64(uint64_t *h, uint64_t v);
 void cx_key_f64(uint64_t *h, double v);
 uint64_t cx_cell_series_key(const cx_cell_params *p);
+/* Centre (mean) and amplitude (RMS distance from the centre) of the last n_tail of n_total
+ * samples of y. */
+void cx_cell_tail_shape(const double *y, cx_idx n_total, cx_idx n_tail, int dim,
+                        double *centre /* out, dim */, double *amplitude /* out */);
+/* Group the runs that ended on untrained attractors (src/cell/untrained.c); sets each run's
+ * cluster and the result's untrained counts. */
+void cx_cell_cluster_untrained(cx_cell_result *r, const double (*centre)[CX_MAX_DIM],
+                               const double *amplitude, int dim, double scale, double tol,
+                               double period_rel);
 /* Whole steps of dt in a time span (rounded to nearest). */
 cx_idx cx_cell_steps(double time, double dt);
 
@@ -57,7 +66,9 @@ struct cx_cell_ws {
     double *w_out; /* dim x nfeat */
     double *work;  /* nfeat^2 + dim * nfeat */
     double *r;     /* n */
-    double *y;     /* (horizon + 1) x dim */
+    double *y;     /* nruns x (horizon + 1) x dim: every run's outputs */
+    double *run_r; /* nruns x n: every run's state (start, then end) */
+    cx_idx run_r_cap;
     double *truth; /* (horizon + 1) x dim: a task's true continuation at whole steps */
     cx_idx y_cap;
     cx_class_ws *cws;
@@ -70,6 +81,7 @@ struct cx_cell_ws {
     cx_idx kept_cap;
     double *kept_start; /* nruns x n: the reservoir state each run started from */
     cx_cell_counts counts;
+    int64_t settled; /* closed-loop runs ended early on a fixed point */
 };
 
 #endif

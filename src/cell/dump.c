@@ -8,9 +8,11 @@
  *   /runs/<j>/output (samples x dim), /runs/<j>/start_state (nodes), attributes outcome, attractor
  * Root attributes: cell, status, dt, nodes, features, tasks, runs, rho_unscaled.
  */
+#include <errno.h>
 #include <string.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <sys/stat.h>
 
 #include <hdf5.h>
 
@@ -77,6 +79,27 @@ static int attr_i64(hid_t loc, const char *name, int64_t v)
     return attr_num(loc, name, H5T_NATIVE_INT64, H5T_STD_I64LE, &v);
 }
 
+int cx_cell_dump_check(const char *path, int overwrite)
+{
+    int rc = CX_OK;
+    struct stat st;
+    char dir[CX_PATH_LEN];
+    CX_REQUIRE(overwrite || lstat(path, &st) != 0, CX_ERR_INVALID,
+               "%s exists: remove it, choose another name, or pass --overwrite", path);
+    snprintf(dir, sizeof dir, "%s", path);
+    char *slash = strrchr(dir, '/');
+    if (slash == NULL)
+        snprintf(dir, sizeof dir, ".");
+    else if (slash == dir)
+        dir[1] = '\0';
+    else
+        *slash = '\0';
+    CX_REQUIRE(stat(dir, &st) == 0 && S_ISDIR(st.st_mode), CX_ERR_INVALID,
+               "cannot write %s: directory %s does not exist", path, dir);
+done:
+    return rc;
+}
+
 int cx_cell_dump(const cx_cell_ws *ws, const cx_cell_params *p, const cx_cell_result *r,
                  const char *path, int overwrite)
 {
@@ -90,6 +113,7 @@ int cx_cell_dump(const cx_cell_ws *ws, const cx_cell_params *p, const cx_cell_re
 
     CX_REQUIRE(ws->keep && ws->have_drive, CX_ERR_INTERNAL,
                "cx_cell_dump needs a workspace that kept its last cell");
+    CX_TRY(cx_cell_dump_check(path, overwrite));
     f = H5Fcreate(path, overwrite ? H5F_ACC_TRUNC : H5F_ACC_EXCL, H5P_DEFAULT, H5P_DEFAULT);
     CX_REQUIRE(f >= 0, CX_ERR_IO,
                "cannot create %s (it exists, or the directory is not writable); "

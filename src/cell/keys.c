@@ -39,12 +39,7 @@ static void key_str(uint64_t *h, const char *s)
 
 static uint64_t key_finish(uint64_t h)
 {
-    h ^= h >> 30;
-    h *= 0xbf58476d1ce4e5b9ULL;
-    h ^= h >> 27;
-    h *= 0x94d049bb133111ebULL;
-    h ^= h >> 31;
-    return h;
+    return cx_rng_mix64(h);
 }
 
 static void key_network(uint64_t *h, const cx_cell_params *p)
@@ -135,6 +130,7 @@ uint64_t cx_cell_drive_key(const cx_cell_params *p)
     cx_key_f64(&h, p->res.input_scaling);
     cx_key_f64(&h, p->res.bias);
     cx_key_u64(&h, (uint64_t)p->res.features);
+    cx_key_u64(&h, (uint64_t)p->res.tanh_mode);
     cx_key_f64(&h, p->train.dt);
     cx_key_f64(&h, p->train.washout);
     cx_key_f64(&h, p->train.length);
@@ -206,7 +202,10 @@ double cx_cell_memory_bytes(const cx_cell_params *p)
     return 8.0 * (tasks * (nf * nf + nf * dim) /* G_k, C_k */
                   + nf * nf + nf * dim         /* solve workspace */
                   + tasks * 2.0 * steps * dim  /* task signals */
-                  + 2.0 * steps * dim          /* one run's outputs */
+                  + (double)(p->ntasks + p->probe.random_starts) *
+                        ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
+                        dim  /* every run's outputs (batched probes) */
+                  + 48.0 * n /* the probe batch blocks */
                   + 24.0 * n + 2.0 * nnz) +
            dense_eig;
 }

@@ -238,6 +238,8 @@ int cx_classify_run(cx_class_ws *ws, const cx_class_params *p, const cx_attracto
     cx_run_metrics r;
     r.outcome = CX_OUT_NOT_RUN;
     r.attractor = -1;
+    r.cluster = -1;
+    r.spare = 0;
     for (int k = 0; k < CX_MAX_TASKS; k++)
         r.distance[k] = NAN;
     r.coverage = r.roundness = r.rotation = r.period = r.valid_time = r.lyapunov = NAN;

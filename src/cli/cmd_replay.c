@@ -34,9 +34,10 @@ static void help(void)
         "                      [--overwrite] [--plot DIR] [--coords I,J]\n\n"
         "Recompute one cell of CUBE.h5 from the sweep file stored in the cube, print its runs,\n"
         "and compare every stored label and metric of the cell with the recomputed one bit for\n"
-        "bit: the status, multifunctional, the untrained count, the unscaled spectral radius, the\n"
-        "readout norms, and per run the outcome, the attractor, the distances, coverage,\n"
-        "roundness, rotation, period, valid time, Lyapunov exponent and stop time.\n\n"
+        "bit: the status, multifunctional, the untrained attractors by kind, the unscaled\n"
+        "spectral radius, the readout norms, and per run the outcome, the attractor, the\n"
+        "untrained attractor, the distances, coverage, roundness, rotation, period, valid time,\n"
+        "Lyapunov exponent and stop time.\n\n"
         "  --at AXIS=VALUE,...  choose the cell by its axis values (every axis named)\n"
         "  --index I            choose the cell by its row-major index (0-based)\n"
         "  --dump OUT.h5        write the cell's matrices and run trajectories (as coexist cell)\n"
@@ -105,6 +106,9 @@ static void compare(const cx_cell_result *s, const cx_cell_result *r, int max_ru
     cmp_int(d, "status", -1, s->status, r->status);
     cmp_int(d, "multifunctional", -1, s->multifunctional, r->multifunctional);
     cmp_int(d, "untrained", -1, s->untrained, r->untrained);
+    cmp_int(d, "untrained_fixed_points", -1, s->untrained_kinds[0], r->untrained_kinds[0]);
+    cmp_int(d, "untrained_cycles", -1, s->untrained_kinds[1], r->untrained_kinds[1]);
+    cmp_int(d, "untrained_aperiodic", -1, s->untrained_kinds[2], r->untrained_kinds[2]);
     cmp_f64(d, "rho_unscaled", -1, s->rho_unscaled, r->rho_unscaled);
     cmp_f64(d, "wout_norm", -1, s->wout_norm, r->wout_norm);
     cmp_f64(d, "wout_square_norm", -1, s->wout_square_norm, r->wout_square_norm);
@@ -112,6 +116,7 @@ static void compare(const cx_cell_result *s, const cx_cell_result *r, int max_ru
         const cx_run_metrics *a = &s->runs[j], *b = &r->runs[j];
         cmp_int(d, "outcome", j, a->outcome, b->outcome);
         cmp_int(d, "attractor", j, a->attractor, b->attractor);
+        cmp_int(d, "cluster", j, a->cluster, b->cluster);
         for (int t = 0; t < max_tasks; t++) {
             char name[32];
             snprintf(name, sizeof name, "distance[%d]", t);
@@ -207,6 +212,8 @@ static int replay(const replay_opts *o, int *agree)
                "cell %lld is not done in %s: nothing to compare (coexist run computes it, "
                "coexist cell shows it)",
                (long long)cell, o->cube);
+    if (o->dump != NULL)
+        CX_TRY(cx_cell_dump_check(o->dump, o->overwrite));
     openblas_set_num_threads(1);
     int keep = o->dump != NULL || o->plot != NULL;
     int brc = cx_study_bind(s, cell, p);

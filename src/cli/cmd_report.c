@@ -122,13 +122,37 @@ static void summary(const cx_rcube *c)
     say("\nruns from random starts:");
     for (int o = 1; o < CX_OUT_COUNT; o++)
         say("%s %s %lld", o > 1 ? "," : "", cx_outcome_name(o), (long long)rnd[o]);
-    say("\nuntrained attractors reached from random starts: %lld runs (%lld untrained-cycle, "
-        "%lld untrained-aperiodic; %lld more settled on a fixed point) in %lld cells\n",
-        (long long)(rnd[CX_OUT_UNTRAINED_CYCLE] + rnd[CX_OUT_UNTRAINED_APERIODIC]),
-        (long long)rnd[CX_OUT_UNTRAINED_CYCLE], (long long)rnd[CX_OUT_UNTRAINED_APERIODIC],
-        (long long)rnd[CX_OUT_FIXED_POINT], (long long)cells_untrained);
-    say("  (counts of runs; runs that reach the same attractor are not merged into distinct "
-        "attractors)\n");
+    say("\n");
+    /* Distinct untrained attractors per cell (the cell pipeline groups runs that end on the
+     * same one: src/cell/untrained.c), and how often each kind turns up across the grid. */
+    static const char *const kind_names[3] = {"fixed points", "untrained periodic orbits",
+                                              "untrained aperiodic attractors"};
+    say("distinct untrained attractors found (any start), in %lld computed cells:\n",
+        (long long)by_status[CX_CELL_COMPUTED]);
+    for (int k = 0; k < 3; k++) {
+        int64_t total = 0, cells_with = 0, most = 0;
+        for (cx_idx cell = 0; cell < c->ncells; cell++) {
+            if (!c->done[cell] || c->status[cell] != CX_CELL_COMPUTED)
+                continue;
+            int64_t v = c->untrained_kinds[cell * 3 + k];
+            if (v > 0) {
+                total += v;
+                cells_with++;
+                if (v > most)
+                    most = v;
+            }
+        }
+        double lo2, hi2;
+        cx_wilson(cells_with, by_status[CX_CELL_COMPUTED], CX_Z95, &lo2, &hi2);
+        say("  %-31s %6lld in all; in %lld cells = %.3f of them (95 %% %.3f .. %.3f), at most "
+            "%lld in one cell\n",
+            kind_names[k], (long long)total, (long long)cells_with,
+            by_status[CX_CELL_COMPUTED] ? (double)cells_with / (double)by_status[CX_CELL_COMPUTED]
+                                        : NAN,
+            lo2, hi2, (long long)most);
+    }
+    say("  (random-start runs that reached an untrained cycle or aperiodic motion: %lld cells)\n",
+        (long long)cells_untrained);
     if (!c->ntasks_exact)
         say("warning: the sweep file stored in the cube did not load here, so every cell is "
             "taken to have %d tasks; runs are split into task and random starts by that\n",

@@ -283,6 +283,7 @@ int cx_rcube_open(const char *path, cx_rcube **out)
     CX_ALLOC(c->multifunctional, c->ncells);
     CX_ALLOC(c->outcome, c->ncells * c->max_runs);
     CX_ALLOC(c->ntasks, c->ncells);
+    CX_ALLOC(c->untrained_kinds, c->ncells * 3);
     RQ_H5(ot = outcome_type(), "enum");
     RQ_H5(st = status_type(), "enum");
     CX_TRY(read_all(file, "done", H5T_NATIVE_UCHAR, c->done, c->ncells, path));
@@ -290,6 +291,19 @@ int cx_rcube_open(const char *path, cx_rcube **out)
     CX_TRY(
         read_all(file, "multifunctional", H5T_NATIVE_SCHAR, c->multifunctional, c->ncells, path));
     CX_TRY(read_all(file, "outcome", ot, c->outcome, c->ncells * c->max_runs, path));
+    {
+        static const char *const kinds[3] = {"untrained_fixed_points", "untrained_cycles",
+                                             "untrained_aperiodic"};
+        short *tmp = NULL;
+        CX_ALLOC(tmp, c->ncells);
+        for (int k = 0; k < 3 && rc == CX_OK; k++) {
+            rc = read_all(file, kinds[k], H5T_NATIVE_SHORT, tmp, c->ncells, path);
+            for (cx_idx i = 0; rc == CX_OK && i < c->ncells; i++)
+                c->untrained_kinds[i * 3 + k] = tmp[i];
+        }
+        free(tmp);
+        CX_TRY(rc);
+    }
     bind_tasks(c);
     *out = c;
     c = NULL;
@@ -321,6 +335,7 @@ void cx_rcube_close(cx_rcube **pc)
         free(c->axes[i].values);
     }
     free(c->ntasks);
+    free(c->untrained_kinds);
     free(c->outcome);
     free(c->multifunctional);
     free(c->status);
@@ -445,7 +460,14 @@ int cx_rcube_read_cell(const cx_rcube *c, cx_idx cell, cx_cell_result *r, int *d
     {
         unsigned char dn = 0;
         signed char s = 0, mf = 0;
-        short un = 0;
+        short un = 0, kinds[3] = {0, 0, 0};
+        CX_TRY(read_cell_slab(file, c, coords, "untrained_fixed_points", H5T_NATIVE_SHORT, 0,
+                              &kinds[0]));
+        CX_TRY(read_cell_slab(file, c, coords, "untrained_cycles", H5T_NATIVE_SHORT, 0, &kinds[1]));
+        CX_TRY(
+            read_cell_slab(file, c, coords, "untrained_aperiodic", H5T_NATIVE_SHORT, 0, &kinds[2]));
+        for (int k = 0; k < 3; k++)
+            r->untrained_kinds[k] = kinds[k];
         CX_TRY(read_cell_slab(file, c, coords, "done", H5T_NATIVE_UCHAR, 0, &dn));
         CX_TRY(read_cell_slab(file, c, coords, "status", st, 0, &s));
         CX_TRY(read_cell_slab(file, c, coords, "multifunctional", H5T_NATIVE_SCHAR, 0, &mf));
@@ -465,6 +487,9 @@ int cx_rcube_read_cell(const cx_rcube *c, cx_idx cell, cx_cell_result *r, int *d
     CX_TRY(read_cell_slab(file, c, coords, "attractor", H5T_NATIVE_SCHAR, 1, b8));
     for (int j = 0; j < c->max_runs; j++)
         r->runs[j].attractor = b8[j];
+    CX_TRY(read_cell_slab(file, c, coords, "cluster", H5T_NATIVE_SCHAR, 1, b8));
+    for (int j = 0; j < c->max_runs; j++)
+        r->runs[j].cluster = b8[j];
     CX_TRY(read_cell_slab(file, c, coords, "distance", H5T_NATIVE_DOUBLE, 2, f));
     for (int j = 0; j < c->max_runs; j++) {
         for (int t = 0; t < CX_MAX_TASKS; t++)
@@ -485,6 +510,7 @@ int cx_rcube_read_cell(const cx_rcube *c, cx_idx cell, cx_cell_result *r, int *d
         cx_run_metrics *m = &r->runs[j];
         m->outcome = CX_OUT_NOT_RUN;
         m->attractor = -1;
+        m->cluster = -1;
         for (int t = 0; t < CX_MAX_TASKS; t++)
             m->distance[t] = NAN;
         m->coverage = m->roundness = m->rotation = m->period = NAN;

@@ -15,7 +15,9 @@ struct cx_res_ws {
     double *xa;
     double *xb;
     double *acc;
-    double *r2; /* the second trajectory of the Lyapunov estimate */
+    double *r2;    /* the second trajectory of the Lyapunov estimate */
+    double *pre;   /* pre-activations of one stage, then their tanh */
+    double *rprev; /* the state one step earlier (fixed-point test of the probe) */
     /* Filled by cx_res_meet from the reservoir, once per call, never per step. */
     double *bias;  /* n: b, or zeros */
     double *win;   /* n x dim row-major: sigma W_in */
@@ -27,10 +29,23 @@ struct cx_res_ws {
     double *qblk;
     double *ublk;
     double gram_seconds; /* wall time spent in the Gram updates since allocation */
+    /* Batched closed loop (batch.c): n x batch_cap row-major blocks, allocated by
+     * cx_res_ws_set_batch: states, states one step earlier, the two stage states, the RK4 sum
+     * and the pre-activations. */
+    int batch_cap;
+    double *bx;
+    double *bprev;
+    double *bxa;
+    double *bxb;
+    double *bacc;
+    double *bpre;
 };
 
 /* Check that `res` fits the workspace and build the input tables. */
 int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
+
+/* x_i <- tanh(x_i), i < n, the way `mode` (enum cx_tanh) says; see tanh.c. */
+void cx_res_tanh(int mode, double *x, cx_idx n);
 
 /* q(r) into q (nfeat). */
 void cx_res_features_of(const cx_res_ws *ws, const double *r, double *q /* out */);

@@ -1,0 +1,377 @@
+/* coexist: several closed-loop runs of one reservoir advanced together.
+ *
+ * The runs of a cell share M, W_in, b and W_out and differ only in their start states, so B of
+ * them are stored as one n x B row-major block X (X[i B + c] = node i of run c) and every RK4
+ * stage (Lu, Hunt & Ott 2018, Chaos 28, 061104; see model.c for the stage equations) is one
+ * sparse-times-block product: each stored entry M_ij is read once and applied to the B values of
+ * node j, which sit side by side; tanh runs over the whole block (tanh.c); the readout W_out q(x)
+ * of the B runs is B independent sums. The arithmetic of each run is, operation for operation,
+ * that of the single-run kernels (model.c, probe.c): pre-activation b_i + input, then the
+ * entries of row i in storage order; the same stage update; the readout summed node by node,
+ * linear term then square. So a run's outputs, end state and stop step are bit-identical to
+ * cx_res_probe_settle's whatever B and whichever runs share the block. Runs never interact: a
+ * column is only ever combined with itself. A run that leaves the bound box or settles drops out
+ * and the block is compacted, so stopped runs cost nothing.
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coexist/error.h"
+#include "reservoir/reservoir_impl.h"
+
+int cx_res_ws_set_batch(cx_res_ws *ws, int nb)
+{
+    int rc = CX_OK;
+    double *blk[6] = {NULL, NULL, NULL, NULL, NULL, NULL};
+    CX_REQUIRE(ws != NULL && nb >= 1 && nb <= CX_MAX_RUNS, CX_ERR_INVALID,
+               "batch of %d runs outside 1..%d", nb, CX_MAX_RUNS);
+    if (nb <= ws->batch_cap)
+        return CX_OK;
+    for (int k = 0; k < 6; k++)
+        CX_CALLOC(blk[k], ws->n * nb);
+    free(ws->bx);
+    free(ws->bprev);
+    free(ws->bxa);
+    free(ws->bxb);
+    free(ws->bacc);
+    free(ws->bpre);
+    ws->bx = blk[0];
+    ws->bprev = blk[1];
+    ws->bxa = blk[2];
+    ws->bxb = blk[3];
+    ws->bacc = blk[4];
+    ws->bpre = blk[5];
+    ws->batch_cap = nb;
+    for (int k = 0; k < 6; k++)
+        blk[k] = NULL;
+done:
+    for (int k = 5; k >= 0; k--)
+        free(blk[k]);
+    return rc;
+}
+
+/* The kernels below take the block width nb as a constant: stage_block() calls them through a
+ * switch on nb = 1..8 so that the compiler unrolls the loops over the runs (an inner loop of
+ * unknown length 2 cost more than the arithmetic). */
+#define CX_INLINE static inline __attribute__((always_inline))
+
+/* Pre-activations of the B runs into s (n x B): per run exactly preact() of model.c. */
+CX_INLINE void preact_block(const cx_res_ws *restrict ws, const cx_csr *restrict m, const int nb,
+                            const double *restrict x, const double *restrict u, double *restrict s)
+{
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const cx_idx *restrict rowptr = m->rowptr;
+    const cx_idx *restrict col = m->col;
+    const double *restrict val = m->val;
+    for (cx_idx i = 0; i < n; i++) {
+        double si[CX_MAX_RUNS];
+        const double bi = ws->bias[i];
+        if (ws->onehot) {
+            const double w = ws->inw[i];
+            const cx_idx j = ws->incol[i];
+            for (int c = 0; c < nb; c++)
+                si[c] = bi + w * u[c * dim + j];
+        } else {
+            const double *w = ws->win + i * dim;
+            for (int c = 0; c < nb; c++) {
+                double v = bi;
+                for (int j = 0; j < dim; j++)
+                    v += w[j] * u[c * dim + j];
+                si[c] = v;
+            }
+        }
+        for (cx_idx p = rowptr[i]; p < rowptr[i + 1]; p++) {
+            const double v = val[p];
+            const double *restrict xj = x + col[p] * nb;
+            for (int c = 0; c < nb; c++)
+                si[c] += v * xj[c];
+        }
+        for (int c = 0; c < nb; c++)
+            s[i * nb + c] = si[c];
+    }
+}
+
+/* W_out q(x) of the B runs, node by node, linear term then square: readout_add() of model.c.
+ * y: nb x dim, zeroed by the caller. */
+CX_INLINE void readout_block(const double *restrict w_out, cx_idx n, const int dim, int features,
+                             const int nb, const double *restrict x, double *restrict y)
+{
+    double acc[CX_MAX_RUNS * CX_MAX_DIM];
+    for (int q = 0; q < nb * dim; q++)
+        acc[q] = 0.0;
+    if (features == CX_FEAT_LINEAR) {
+        for (cx_idx i = 0; i < n; i++) {
+            const double *wl = w_out + i * dim;
+            for (int c = 0; c < nb; c++)
+                for (int j = 0; j < dim; j++)
+                    acc[c * dim + j] += wl[j] * x[i * nb + c];
+        }
+    } else {
+        for (cx_idx i = 0; i < n; i++) {
+            const double *wl = w_out + i * dim;
+            const double *wq = w_out + (n + i) * dim;
+            for (int c = 0; c < nb; c++) {
+                const double v = x[i * nb + c];
+                const double v2 = v * v;
+                for (int j = 0; j < dim; j++)
+                    acc[c * dim + j] += wl[j] * v + wq[j] * v2;
+            }
+        }
+    }
+    for (int q = 0; q < nb * dim; q++)
+        y[q] = acc[q];
+}
+
+/* The stage update over the whole block: elementwise, so it runs over n * nb contiguous values
+ * whatever nb (the same operations as rk4_stage()/map_pass() of model.c, value by value). */
+static void update_block(const cx_reservoir *restrict res, cx_idx len, int stage,
+                         const double *restrict x, const double *restrict s, double c0,
+                         double *restrict acc, double *r, double *xout)
+{
+    if (stage == 0) {
+        const double a = res->leak, keep = 1.0 - a;
+        for (cx_idx o = 0; o < len; o++)
+            xout[o] = keep * x[o] + a * s[o];
+        return;
+    }
+    const double gamma = res->rate;
+    if (stage == 1) {
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            acc[o] = k;
+            xout[o] = r[o] + c0 * k;
+        }
+    } else if (stage < 4) {
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            acc[o] += 2.0 * k;
+            xout[o] = r[o] + c0 * k;
+        }
+    } else {
+        /* xout is r itself here, x a separate buffer */
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            xout[o] = r[o] + c0 * (acc[o] + k);
+        }
+    }
+}
+
+#define CX_FOR_WIDTHS(CALL)                                                                        \
+    switch (nb) {                                                                                  \
+    case 1:                                                                                        \
+        CALL(1);                                                                                   \
+        break;                                                                                     \
+    case 2:                                                                                        \
+        CALL(2);                                                                                   \
+        break;                                                                                     \
+    case 3:                                                                                        \
+        CALL(3);                                                                                   \
+        break;                                                                                     \
+    case 4:                                                                                        \
+        CALL(4);                                                                                   \
+        break;                                                                                     \
+    case 5:                                                                                        \
+        CALL(5);                                                                                   \
+        break;                                                                                     \
+    case 6:                                                                                        \
+        CALL(6);                                                                                   \
+        break;                                                                                     \
+    case 7:                                                                                        \
+        CALL(7);                                                                                   \
+        break;                                                                                     \
+    case 8:                                                                                        \
+        CALL(8);                                                                                   \
+        break;                                                                                     \
+    default:                                                                                       \
+        CALL(nb);                                                                                  \
+    }
+
+/* One RK4 stage (or the leaky map, stage 0) of the block: rk4_stage()/map_pass() of model.c for
+ * every column. u, y: nb x dim. */
+static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restrict res, int nb,
+                        int stage, const double *restrict x, const double *restrict u, double c0,
+                        double *restrict acc, double *r, double *xout, const double *restrict w_out,
+                        double *restrict y)
+{
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const int features = ws->features;
+    double *restrict s = ws->bpre;
+#define CX_PRE(w) preact_block(ws, res->m, w, x, u, s)
+    CX_FOR_WIDTHS(CX_PRE)
+#undef CX_PRE
+    cx_res_tanh(res->tanh_mode, s, n * nb);
+    update_block(res, n * nb, stage, x, s, c0, acc, r, xout);
+#define CX_READ(w)                                                                                 \
+    do {                                                                                           \
+        if (dim == 2)                                                                              \
+            readout_block(w_out, n, 2, features, w, xout, y);                                      \
+        else                                                                                       \
+            readout_block(w_out, n, dim, features, w, xout, y);                                    \
+    } while (0)
+    CX_FOR_WIDTHS(CX_READ)
+#undef CX_READ
+    if (features == CX_FEAT_LINEAR_SQUARES_CONSTANT)
+        for (int c = 0; c < nb; c++)
+            for (int j = 0; j < dim; j++)
+                y[c * dim + j] += w_out[2 * n * dim + j];
+}
+
+/* One closed-loop step of the block: cx_res_closed_step() for every column. */
+static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *w_out,
+                              double dt, int nb, double *y)
+{
+    double ys[CX_MAX_RUNS * CX_MAX_DIM], yt[CX_MAX_RUNS * CX_MAX_DIM];
+    double *r = ws->bx;
+    if (res->model == CX_MODEL_DISCRETE) {
+        stage_block(ws, res, nb, 0, r, y, 0.0, NULL, NULL, ws->bxa, w_out, ys);
+        memcpy(r, ws->bxa, (size_t)(ws->n * nb) * sizeof *r);
+        memcpy(y, ys, (size_t)(nb * ws->dim) * sizeof *y);
+        return;
+    }
+    const double h2 = 0.5 * dt, h6 = dt / 6.0;
+    stage_block(ws, res, nb, 1, r, y, h2, ws->bacc, r, ws->bxa, w_out, ys);
+    stage_block(ws, res, nb, 2, ws->bxa, ys, h2, ws->bacc, r, ws->bxb, w_out, yt);
+    stage_block(ws, res, nb, 3, ws->bxb, yt, dt, ws->bacc, r, ws->bxa, w_out, ys);
+    stage_block(ws, res, nb, 4, ws->bxa, ys, h6, ws->bacc, r, r, w_out, y);
+}
+
+static int outside(const double *y, int dim, const double *lo, const double *hi)
+{
+    for (int j = 0; j < dim; j++) {
+        if (!isfinite(y[j]))
+            return 1;
+        if (lo != NULL && y[j] < lo[j])
+            return 1;
+        if (hi != NULL && y[j] > hi[j])
+            return 1;
+    }
+    return 0;
+}
+
+/* Drop the columns with keep[c] == 0 from an n x nb block, in place (row-major: every value
+ * moves to a lower or equal index, so a forward copy is safe). */
+static void compact(double *blk, cx_idx n, int nb, const int *keep)
+{
+    cx_idx to = 0;
+    for (cx_idx i = 0; i < n; i++)
+        for (int c = 0; c < nb; c++)
+            if (keep[c])
+                blk[to++] = blk[i * nb + c];
+}
+
+int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
+                       cx_idx nsteps, const double *lo, const double *hi,
+                       const cx_res_settle *settle, int nruns, double *const *r,
+                       double *const *y_out, cx_idx *steps_done, cx_idx *settled_at)
+{
+    int rc = CX_OK;
+    CX_TRY(cx_res_meet(ws, res));
+    CX_REQUIRE(w_out != NULL && r != NULL && steps_done != NULL && settled_at != NULL &&
+                   nsteps >= 0,
+               CX_ERR_INVALID, "batch probe: NULL argument or %lld steps", (long long)nsteps);
+    CX_REQUIRE(nruns >= 1 && nruns <= ws->batch_cap, CX_ERR_INVALID,
+               "batch probe: %d runs, the workspace holds %d (cx_res_ws_set_batch)", nruns,
+               ws->batch_cap);
+    CX_REQUIRE(res->model == CX_MODEL_DISCRETE || dt > 0.0, CX_ERR_INVALID,
+               "batch probe: time step %g", dt);
+    CX_REQUIRE(settle == NULL ||
+                   (settle->window >= 0 && settle->state_step >= 0.0 && settle->output_step >= 0.0),
+               CX_ERR_INVALID, "batch probe: negative early-stop window or tolerance");
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const cx_idx window = settle != NULL ? settle->window : 0;
+    int run[CX_MAX_RUNS], keep[CX_MAX_RUNS];
+    cx_idx still[CX_MAX_RUNS];
+    double y[CX_MAX_RUNS * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
+    int nb = 0;
+    for (int b = 0; b < nruns; b++) {
+        double yb[CX_MAX_DIM];
+        settled_at[b] = -1;
+        steps_done[b] = 0;
+        cx_res_readout(res, w_out, r[b], yb);
+        if (y_out != NULL && y_out[b] != NULL)
+            memcpy(y_out[b], yb, (size_t)dim * sizeof *yb);
+        if (outside(yb, dim, lo, hi))
+            continue;
+        run[nb] = b;
+        still[nb] = 0;
+        memcpy(y + nb * dim, yb, (size_t)dim * sizeof *yb);
+        memcpy(yprev + nb * dim, yb, (size_t)dim * sizeof *yb);
+        nb++;
+    }
+    const int width = nb;
+    for (int c = 0; c < width; c++)
+        for (cx_idx i = 0; i < n; i++)
+            ws->bx[i * width + c] = ws->bprev[i * width + c] = r[run[c]][i];
+    for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
+        closed_step_block(ws, res, w_out, dt, nb, y);
+        int stopped = 0;
+        for (int c = 0; c < nb; c++) {
+            const int b = run[c];
+            const double *yc = y + c * dim;
+            keep[c] = 1;
+            if (y_out != NULL && y_out[b] != NULL)
+                memcpy(y_out[b] + i * dim, yc, (size_t)dim * sizeof *yc);
+            if (outside(yc, dim, lo, hi)) {
+                steps_done[b] = i;
+                keep[c] = 0;
+            } else if (window > 0) {
+                double dr = 0.0, dy = 0.0;
+                for (cx_idx k = 0; k < n; k++) {
+                    const double e = fabs(ws->bx[k * nb + c] - ws->bprev[k * nb + c]);
+                    dr = e > dr ? e : dr;
+                    ws->bprev[k * nb + c] = ws->bx[k * nb + c];
+                }
+                for (int j = 0; j < dim; j++) {
+                    const double e = fabs(yc[j] - yprev[c * dim + j]);
+                    dy = e > dy ? e : dy;
+                    yprev[c * dim + j] = yc[j];
+                }
+                still[c] = dr <= settle->state_step && dy <= settle->output_step ? still[c] + 1 : 0;
+                if (still[c] >= window && i < nsteps) {
+                    settled_at[b] = i;
+                    if (y_out != NULL && y_out[b] != NULL)
+                        for (cx_idx k = i + 1; k <= nsteps; k++)
+                            memcpy(y_out[b] + k * dim, yc, (size_t)dim * sizeof *yc);
+                    steps_done[b] = nsteps;
+                    keep[c] = 0;
+                }
+            }
+            if (i == nsteps && keep[c])
+                steps_done[b] = nsteps;
+            if (!keep[c]) {
+                for (cx_idx k = 0; k < n; k++)
+                    r[b][k] = ws->bx[k * nb + c];
+                stopped++;
+            }
+        }
+        if (stopped > 0 && stopped < nb) {
+            const int nb_new = nb - stopped;
+            compact(ws->bx, n, nb, keep);
+            compact(ws->bprev, n, nb, keep);
+            int to = 0;
+            for (int c = 0; c < nb; c++) {
+                if (!keep[c])
+                    continue;
+                run[to] = run[c];
+                still[to] = still[c];
+                memcpy(y + to * dim, y + c * dim, (size_t)dim * sizeof *y);
+                memcpy(yprev + to * dim, yprev + c * dim, (size_t)dim * sizeof *y);
+                to++;
+            }
+            nb = nb_new;
+        } else if (stopped == nb) {
+            nb = 0;
+        }
+    }
+    for (int c = 0; c < nb; c++) {
+        steps_done[run[c]] = nsteps;
+        for (cx_idx k = 0; k < n; k++)
+            r[run[c]][k] = ws->bx[k * nb + c];
+    }
+done:
+    return rc;
+}

@@ -1,0 +1,7 @@
+# The speed benchmark (tools/bench.c, tools/bench_numpy.py): built with the tests, never run as
+# one (timings on shared machines are not pass/fail). Run: coexist-bench [--quick] [--json F].
+add_executable(coexist-bench ${CMAKE_SOURCE_DIR}/tools/bench.c)
+target_link_libraries(coexist-bench PRIVATE coexist_core)
+target_include_directories(coexist-bench PRIVATE ${CMAKE_SOURCE_DIR}/src)
+target_compile_options(coexist-bench PRIVATE ${CX_WARNINGS})
+target_compile_definitions(coexist-bench PRIVATE CX_SOURCE_DIR="${CMAKE_SOURCE_DIR}")

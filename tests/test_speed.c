@@ -1,0 +1,410 @@
+/* coexist tests: the fast paths of the stepping kernels change no labels and stay within their
+ * stated error: the vector tanh against the C library's tanh over the whole range, the early
+ * stop on a fixed point on the demo cells, and a small sweep with every fast path on and off. */
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "coexist/cell.h"
+#include "coexist/error.h"
+#include "coexist/rng.h"
+#include "coexist/study.h"
+#include "reservoir/reservoir_impl.h"
+#include "testlib.h"
+
+#if defined(__x86_64__)
+#include <emmintrin.h>
+#include <sleef.h>
+#endif
+
+void openblas_set_num_threads(int num_threads);
+
+#define SRC_SLEEF                                                                                  \
+    "SLEEF 3.5 documentation, tanh 3.5-ULP variant (Shibata & Petrogalli 2020, IEEE TPDS 31, "     \
+    "1316) + glibc manual, 'Errors in Math Functions', tanh <= 2 ULP on x86_64 (from memory)"
+#define SRC_IEEE                                                                                   \
+    "IEEE 754-2008 / C11 Annex F.10.2.6: tanh(+-0) = +-0, tanh(+-inf) = +-1, NaN propagates"
+#define SRC_ODD "analytic: tanh is odd, tanh(-x) = -tanh(x) (Abramowitz & Stegun 1964, 4.5.19)"
+#define SRC_OURS                                                                                   \
+    "property of the design (no external reference): a fast path must not change a label"
+
+/* Distance in units in the last place between two doubles (ordered integer images of their
+ * bits; the difference is taken in integers, a double would round it to a multiple of 512). */
+static double ulps(double a, double b)
+{
+    if (a == b)
+        return 0.0;
+    int64_t ia, ib;
+    memcpy(&ia, &a, sizeof ia);
+    memcpy(&ib, &b, sizeof ib);
+    if (ia < 0)
+        ia = INT64_MIN - ia;
+    if (ib < 0)
+        ib = INT64_MIN - ib;
+    if ((ia < 0) != (ib < 0))
+        return (double)(ia < 0 ? -ia : ia) + (double)(ib < 0 ? -ib : ib);
+    return (double)(ia > ib ? ia - ib : ib - ia);
+}
+
+static void test_tanh(void)
+{
+    /* Dense sweep of [-20, 20] (tanh rounds to +-1 beyond about 19.06), a log sweep of tiny
+     * arguments, and the special values. */
+    const cx_idx dense = 400001;
+    const cx_idx tiny = 2 * 640;
+    const cx_idx n = dense + tiny + 8;
+    double *x = malloc((size_t)n * sizeof *x), *v = malloc((size_t)n * sizeof *v);
+    if (x == NULL || v == NULL) {
+        cx_test_true("allocation", 0, "", "");
+        free(v);
+        free(x);
+        return;
+    }
+    for (cx_idx i = 0; i < dense; i++)
+        x[i] = -20.0 + 40.0 * (double)i / (double)(dense - 1) + 1.37e-7;
+    for (cx_idx i = 0; i < tiny / 2; i++) {
+        x[dense + 2 * i] = pow(10.0, -320.0 + 0.5 * (double)i); /* 1e-320 (subnormal) .. 1e0 */
+        x[dense + 2 * i + 1] = -x[dense + 2 * i];
+    }
+    const double special[8] = {0.0, -0.0, INFINITY, -INFINITY, NAN, 1e300, -1e300, 4.9e-324};
+    memcpy(x + dense + tiny, special, sizeof special);
+    memcpy(v, x, (size_t)n * sizeof *x);
+    cx_res_tanh(CX_TANH_VECTOR, v, n);
+    double worst = 0.0, at = 0.0;
+    int odd = 1;
+    for (cx_idx i = 0; i < dense + tiny; i++) {
+        double e = ulps(v[i], tanh(x[i]));
+        if (e > worst) {
+            worst = e;
+            at = x[i];
+        }
+    }
+    /* odd symmetry: the mirror tests of the reservoir rely on it */
+    double *w = malloc((size_t)n * sizeof *w);
+    if (w != NULL) {
+        for (cx_idx i = 0; i < n; i++)
+            w[i] = -x[i];
+        cx_res_tanh(CX_TANH_VECTOR, w, n);
+        for (cx_idx i = 0; i < dense + tiny + 7; i++)
+            if (!(w[i] == -v[i]) && !(isnan(w[i]) && isnan(v[i])))
+                odd = 0;
+    }
+    char d[200];
+    snprintf(d, sizeof d, "max %.1f ULP at x = %.6g over %lld arguments", worst, at,
+             (long long)(dense + tiny));
+    cx_test_true("vector tanh vs libm tanh over [-20, 20] and 1e-320..1: <= 3.5 + 2 ULP",
+                 worst <= 5.5, d, SRC_SLEEF);
+    const double *sv = v + dense + tiny;
+    cx_test_true("vector tanh(+0) = +0 and tanh(-0) = -0",
+                 sv[0] == 0.0 && !signbit(sv[0]) && sv[1] == 0.0 && signbit(sv[1]), "", SRC_IEEE);
+    cx_test_true("vector tanh(+inf) = 1, tanh(-inf) = -1", sv[2] == 1.0 && sv[3] == -1.0, "",
+                 SRC_IEEE);
+    cx_test_true("vector tanh(NaN) is NaN", isnan(sv[4]) != 0, "", SRC_IEEE);
+    cx_test_true("vector tanh(+-1e300) = +-1", sv[5] == 1.0 && sv[6] == -1.0, "", SRC_IEEE);
+    snprintf(d, sizeof d, "tanh(4.9e-324) = %g", sv[7]);
+    cx_test_true("vector tanh of the least subnormal = itself", sv[7] == 4.9e-324, d, SRC_IEEE);
+    cx_test_true("vector tanh is exactly odd on every argument", odd && w != NULL, "", SRC_ODD);
+
+    /* The same value gives the same bits wherever it sits and whatever the array length (the
+     * remainder of an array is padded, not computed another way). */
+    int same = 1;
+    for (cx_idx len = 1; len <= 9; len++) {
+        double a[9];
+        for (cx_idx i = 0; i < len; i++)
+            a[i] = x[1000 + 7919 * i];
+        cx_res_tanh(CX_TANH_VECTOR, a, len);
+        for (cx_idx i = 0; i < len; i++)
+            if (memcmp(&a[i], &v[1000 + 7919 * i], sizeof a[i]) != 0)
+                same = 0;
+    }
+    cx_test_true("vector tanh: bits independent of position and array length (1..9)", same, "",
+                 SRC_OURS);
+#if defined(__x86_64__)
+    /* The SSE2/SSE4.1 functions that a CPU without AVX2 would use give the same bits here as the
+     * path this CPU takes (AVX-512F or AVX2). */
+    int cross = 1;
+    for (cx_idx i = 0; i + 1 < dense; i += 2) {
+        double b[2];
+        _mm_storeu_pd(b, Sleef_tanhd2_u35(_mm_loadu_pd(x + i)));
+        if (memcmp(b, v + i, sizeof b) != 0)
+            cross = 0;
+    }
+    cx_test_true("vector tanh: 2-lane SSE functions == the dispatched wide path, bit for bit",
+                 cross, "400001 arguments of the dense sweep", SRC_OURS);
+#endif
+    free(w);
+    free(v);
+    free(x);
+}
+
+static cx_study *load_file(const char *path)
+{
+    cx_study *s = NULL;
+    if (cx_study_load(path, &s) != CX_OK) {
+        cx_err_print("test_speed", 1);
+        return NULL;
+    }
+    return s;
+}
+
+/* Every cell of s computed with (tanh, early stop) = a and then = b in one workspace (with the
+ * same tanh the drive is reused, the probes are not); counts
+ * the cells whose labels (outcome and attractor of every run, cell status, multifunctional flag)
+ * differ, and the runs the fast setting ended early. */
+static int compare_paths(const cx_study *s, int tanh_a, int stop_a, int tanh_b, int stop_b,
+                         cx_idx *cells, int64_t *settled, double *max_metric)
+{
+    cx_cell_ws *wa = NULL;
+    int differ = 0;
+    *cells = cx_study_cells(s);
+    *max_metric = 0.0;
+    if (cx_cell_ws_create(&wa) != CX_OK) {
+        differ = -1;
+        goto done;
+    }
+    for (cx_idx cell = 0; cell < *cells; cell++) {
+        cx_cell_params p;
+        cx_cell_result ra, rb;
+        if (cx_study_bind(s, cell, &p) != CX_OK) {
+            differ = -1;
+            goto done;
+        }
+        p.res.tanh_mode = tanh_a;
+        p.probe.early_stop = stop_a;
+        if (cx_cell_compute(wa, &p, cell, &ra) != CX_OK) {
+            differ = -1;
+            goto done;
+        }
+        p.res.tanh_mode = tanh_b;
+        p.probe.early_stop = stop_b;
+        if (cx_cell_compute(wa, &p, cell, &rb) != CX_OK) {
+            differ = -1;
+            goto done;
+        }
+        int same = ra.status == rb.status && ra.multifunctional == rb.multifunctional &&
+                   ra.untrained == rb.untrained && ra.nruns == rb.nruns;
+        for (int j = 0; j < ra.nruns && same; j++) {
+            same = ra.runs[j].outcome == rb.runs[j].outcome &&
+                   ra.runs[j].attractor == rb.runs[j].attractor;
+            for (int k = 0; k < ra.ntasks; k++)
+                if (isfinite(ra.runs[j].distance[k]))
+                    *max_metric =
+                        fmax(*max_metric, fabs(ra.runs[j].distance[k] - rb.runs[j].distance[k]));
+        }
+        if (!same)
+            differ++;
+    }
+    *settled = cx_cell_ws_settled(wa);
+done:
+    cx_cell_ws_destroy(&wa);
+    return differ;
+}
+
+static void test_early_stop_demo(void)
+{
+    const char *src = getenv("CX_SOURCE_DIR");
+    char path[1024];
+    snprintf(path, sizeof path, "%s/jobs/demo-window.yaml", src != NULL ? src : "..");
+    cx_study *s = load_file(path);
+    if (s == NULL) {
+        cx_test_true("load jobs/demo-window.yaml", 0, path, "");
+        return;
+    }
+    cx_idx cells = 0;
+    int64_t settled = 0;
+    double dm = 0.0;
+    int differ = compare_paths(s, CX_TANH_VECTOR, 0, CX_TANH_VECTOR, 1, &cells, &settled, &dm);
+    char d[200];
+    snprintf(d, sizeof d,
+             "%d of %lld cells differ; %lld runs ended early; max |distance "
+             "change| %.2g",
+             differ, (long long)cells, (long long)settled, dm);
+    cx_test_true("demo sweep: early stop on vs off, every run's label identical", differ == 0, d,
+                 SRC_OURS);
+    cx_test_true("demo sweep: the early stop was taken by some runs", settled > 0, d, SRC_OURS);
+    cx_test_abs("demo sweep: early stop moves distances by at most 1e-6 signal units", dm, 0.0,
+                1e-6, "bound of the settle test: n_tail steps x 1e-6 fixed_tol S (cell.c)");
+    cx_study_destroy(&s);
+}
+
+static const char *small_yaml =
+    "study: {name: speed-test, seed: 6607}\n"
+    "reservoir: {nodes: 120, mean_degree: 3, rate: 5.0, input_scaling: 0.13}\n"
+    "training: {dt: 0.02, washout: 10, length: 40, ridge: 0.7}\n"
+    "probe: {horizon: 60, tail: 15, random_starts: 3}\n"
+    "tasks:\n"
+    "  - {kind: cycle, name: near, centre: [-1.1, 0.15], radius: 0.95, speed: 2.3}\n"
+    "  - {kind: cycle, name: far, centre: [1.2, -0.25], radius: 1.75, ellipticity: 0.8, speed: "
+    "-1.35}\n"
+    "axes:\n"
+    "  reservoir.spectral_radius: [0.15, 0.45, 0.85, 1.25, 1.65, 2.2]\n"
+    "  training.blend: [0.4, 0.6]\n"
+    "  seed: {count: 2}\n";
+
+static void test_small_sweep(void)
+{
+    cx_study *s = NULL;
+    if (cx_study_load_buffer(small_yaml, strlen(small_yaml), "speed.yaml", &s) != CX_OK) {
+        cx_err_print("test_speed", 1);
+        cx_test_true("load the small sweep", 0, "", "");
+        return;
+    }
+    cx_idx cells = 0;
+    int64_t settled = 0;
+    double dm = 0.0;
+    int differ = compare_paths(s, CX_TANH_LIBM, 0, CX_TANH_VECTOR, 1, &cells, &settled, &dm);
+    char d[200];
+    snprintf(d, sizeof d, "%d of %lld cells differ; %lld runs ended early", differ,
+             (long long)cells, (long long)settled);
+    cx_test_true("small sweep: labels identical with every fast path on (vector tanh, early "
+                 "stop) vs off",
+                 differ == 0 && cells >= 20, d, SRC_OURS);
+    cx_test_true("small sweep: the early stop was taken by some runs", settled > 0, d, SRC_OURS);
+    cx_study_destroy(&s);
+}
+
+/* A random reservoir for the kernel checks: n nodes, 3 links per node, one input per node. */
+typedef struct toy {
+    cx_csr m;
+    cx_idx *rowptr, *col;
+    double *val, *win, *wout;
+} toy;
+
+static int toy_make(toy *t, cx_idx n, int dim, double scale, uint64_t seed)
+{
+    const int deg = 3;
+    cx_rng rng;
+    cx_rng_seed(&rng, seed, 17);
+    t->rowptr = malloc((size_t)(n + 1) * sizeof *t->rowptr);
+    t->col = malloc((size_t)(n * deg) * sizeof *t->col);
+    t->val = malloc((size_t)(n * deg) * sizeof *t->val);
+    t->win = calloc((size_t)(n * dim), sizeof *t->win);
+    t->wout = malloc((size_t)(2 * n * dim) * sizeof *t->wout);
+    if (!t->rowptr || !t->col || !t->val || !t->win || !t->wout)
+        return 0;
+    for (cx_idx i = 0; i <= n; i++)
+        t->rowptr[i] = i * deg;
+    for (cx_idx p = 0; p < n * deg; p++) {
+        t->col[p] = (cx_idx)cx_rng_range(&rng, 0.0, (double)n - 1e-9);
+        t->val[p] = cx_rng_range(&rng, -scale, scale);
+    }
+    for (cx_idx i = 0; i < n; i++)
+        t->win[i * dim + i % dim] = cx_rng_range(&rng, -1.0, 1.0);
+    for (cx_idx i = 0; i < 2 * n * dim; i++)
+        t->wout[i] = cx_rng_range(&rng, -2.0, 2.0) / (double)n;
+    t->m.n = n;
+    t->m.nnz = n * deg;
+    t->m.rowptr = t->rowptr;
+    t->m.col = t->col;
+    t->m.val = t->val;
+    return 1;
+}
+
+static void toy_free(toy *t)
+{
+    free(t->wout);
+    free(t->win);
+    free(t->val);
+    free(t->col);
+    free(t->rowptr);
+}
+
+/* cx_res_probe_batch against cx_res_probe_settle run by run, bit for bit, for B = 1..8, both
+ * models, runs that leave the box, settle, or run the whole horizon. */
+static void test_batch(void)
+{
+    const cx_idx n = 90, steps = 700;
+    const int dim = 2, maxb = 8;
+    int same = 1, cases = 0;
+    int64_t left = 0, settled = 0, full = 0;
+    for (int model = 0; model < 2; model++) {
+        for (int active = 0; active < 2; active++) {
+            toy t;
+            cx_res_ws *ws = NULL;
+            double *r1 = malloc((size_t)(n * maxb) * sizeof *r1);
+            double *r2 = malloc((size_t)(n * maxb) * sizeof *r2);
+            double *y1 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y1);
+            double *y2 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y2);
+            if (!toy_make(&t, n, dim, active ? 1.4 : 0.25, 3301 + (uint64_t)(2 * model + active)) ||
+                !r1 || !r2 || !y1 || !y2 || cx_res_ws_alloc(&ws, n, dim, 0) != CX_OK ||
+                cx_res_ws_set_batch(ws, maxb) != CX_OK) {
+                same = 0;
+                goto next;
+            }
+            cx_reservoir res = {0};
+            res.n = n;
+            res.dim = dim;
+            res.model = model;
+            res.features = CX_FEAT_LINEAR_SQUARES;
+            res.rate = 4.3;
+            res.leak = 0.37;
+            res.input_scaling = 0.6;
+            res.tanh_mode = active ? CX_TANH_VECTOR : CX_TANH_LIBM;
+            res.m = &t.m;
+            res.w_in = t.win;
+            const double lo[2] = {-0.16, -0.16}, hi[2] = {0.16, 0.16};
+            const cx_res_settle settle = {25, 1e-11, 1e-12};
+            for (int nb = 1; nb <= maxb; nb++) {
+                cx_rng rng;
+                cx_rng_seed(&rng, 77 + (uint64_t)nb, 5);
+                double *rs[8], *ys[8];
+                cx_idx sd1[8], sa1[8], sd2[8], sa2[8];
+                memset(y1, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y1);
+                memset(y2, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y2);
+                for (int b = 0; b < nb; b++) {
+                    const double a = 0.2 + 0.35 * (double)b;
+                    for (cx_idx i = 0; i < n; i++)
+                        r1[b * n + i] = r2[b * n + i] = cx_rng_range(&rng, -a, a);
+                    if (cx_res_probe_settle(ws, &res, t.wout, 0.02, steps, lo, hi, &settle,
+                                            r1 + b * n, y1 + b * (steps + 1) * dim, &sd1[b],
+                                            &sa1[b]) != CX_OK)
+                        same = 0;
+                    rs[b] = r2 + b * n;
+                    ys[b] = y2 + b * (steps + 1) * dim;
+                }
+                if (cx_res_probe_batch(ws, &res, t.wout, 0.02, steps, lo, hi, &settle, nb, rs, ys,
+                                       sd2, sa2) != CX_OK)
+                    same = 0;
+                for (int b = 0; b < nb; b++) {
+                    same &= sd1[b] == sd2[b] && sa1[b] == sa2[b];
+                    if (sa1[b] >= 0)
+                        settled++;
+                    else if (sd1[b] < steps)
+                        left++;
+                    else
+                        full++;
+                }
+                same &= memcmp(r1, r2, (size_t)(n * nb) * sizeof *r1) == 0;
+                same &= memcmp(y1, y2, (size_t)((steps + 1) * dim * nb) * sizeof *y1) == 0;
+                cases++;
+            }
+        next:
+            cx_res_ws_free(&ws);
+            free(y2);
+            free(y1);
+            free(r2);
+            free(r1);
+            toy_free(&t);
+        }
+    }
+    char d[200];
+    snprintf(d, sizeof d, "%d cases; runs: %lld left the box, %lld settled, %lld full horizon",
+             cases, (long long)left, (long long)settled, (long long)full);
+    cx_test_true("batched probe == one run at a time, bit for bit (outputs, states, stop steps), "
+                 "B = 1..8, both models",
+                 same && cases == 32, d, SRC_OURS);
+    cx_test_true("batched probe check covers runs that leave, settle and run the whole horizon",
+                 left > 0 && settled > 0 && full > 0, d, SRC_OURS);
+}
+
+int main(void)
+{
+    openblas_set_num_threads(1);
+    test_tanh();
+    test_batch();
+    test_early_stop_demo();
+    test_small_sweep();
+    return cx_test_finish();
+}
