@@ -1,10 +1,42 @@
 #!/bin/sh
-# Install what is missing, build, and run the whole test suite (ctest). This is the README's
-# test command and what CI runs.
+# Install what is missing, build, and run every test. This is the README's test command and
+# what CI runs (.ci/run). Stages:
+#   1. the release build (-Werror) and its whole ctest suite: unit, mpi, slurm (a one-node
+#      SLURM on localhost, tools/slurm-cluster.sh) and root (small tmpfs mounts) tests;
+#   2. a format check of every C source with the pinned clang-format (14);
+#   3. an AddressSanitizer + UndefinedBehaviorSanitizer build and its unit tests, leaks checked
+#      (third-party libraries' own leaks suppressed: tests/lsan.supp);
+#   4. a short libFuzzer run of the three fuzz targets (tools/fuzz.sh -r 3000).
+#   tools/test.sh --quick    stage 1 only
+# Extra arguments after the options go to the stage-1 ctest (e.g. -L unit).
 set -eu
 root=$(cd "$(dirname "$0")/.." && pwd)
+quick=0
+if [ "${1:-}" = "--quick" ]; then
+    quick=1
+    shift
+fi
 "$root/tools/install-deps.sh"
 "$root/tools/build.sh"
 build=${CX_BUILD_DIR:-$root/build}
-cd "$build"
-OPENBLAS_NUM_THREADS=1 ctest --output-on-failure -j 2 "$@"
+(cd "$build" && OPENBLAS_NUM_THREADS=1 ctest --output-on-failure -j 2 "$@")
+[ "$quick" -eq 1 ] && exit 0
+
+echo "== format check (clang-format $(clang-format --version | sed 's/.*version //'))"
+(cd "$root" && git ls-files '*.c' '*.h' '*.cpp' | xargs clang-format --dry-run -Werror)
+echo "format check: 1 passed, 0 failed"
+
+echo "== sanitizer build (ASan + UBSan)"
+asan=${CX_ASAN_DIR:-$root/build-asan}
+mkdir -p "$asan"
+cmake -S "$root" -B "$asan" -DCX_SANITIZE=ON -DCMAKE_BUILD_TYPE=Debug >"$asan/configure.log" 2>&1 ||
+    { cat "$asan/configure.log"; exit 1; }
+cmake --build "$asan" -j "$(nproc)"
+(cd "$asan" && OPENBLAS_NUM_THREADS=1 \
+    ASAN_OPTIONS=detect_leaks=1:abort_on_error=0 \
+    UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
+    LSAN_OPTIONS="suppressions=$root/tests/lsan.supp:print_suppressions=0" \
+    ctest --output-on-failure -j 2 -L unit)
+
+echo "== fuzz smoke run"
+"$root/tools/fuzz.sh" -b "${CX_FUZZ_DIR:-$root/build-fuzz}" -r 3000

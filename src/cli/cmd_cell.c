@@ -161,6 +161,8 @@ int cx_cmd_cell(int argc, char **argv)
         cx_study_destroy(&s);
         return CX_EXIT_BAD_INPUT;
     }
+    if (dump != NULL && (rc = cx_cell_dump_check(dump, overwrite)) != CX_OK)
+        goto fail;
     openblas_set_num_threads(1);
     cx_cell_params p;
     cx_cell_result r;

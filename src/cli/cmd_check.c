@@ -59,8 +59,12 @@ int cx_cmd_check(int argc, char **argv)
     }
     cx_study *s = NULL;
     int rc = cx_study_load(path, &s);
-    if (rc != CX_OK)
+    if (rc == CX_OK)
+        rc = cx_estimate_memory_check(path, s);
+    if (rc != CX_OK) {
+        cx_study_destroy(&s);
         return cx_cli_fail("coexist check", rc);
+    }
 
     int naxes = cx_study_naxes(s);
     cx_idx cells = cx_study_cells(s);

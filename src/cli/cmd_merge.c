@@ -18,6 +18,7 @@
 #include "coexist/study.h"
 #include "cli/args.h"
 #include "cli/commands.h"
+#include "cli/estimate.h"
 
 #define MAX_PARTITIONS 16
 
@@ -163,6 +164,8 @@ int cx_cmd_merge(int argc, char **argv)
         rc = CX_FAIL(CX_ERR_INVALID, "merge runs as one process (started with %d)", size);
     if (rc == CX_OK)
         rc = cx_study_load(file, &s);
+    if (rc == CX_OK)
+        rc = cx_estimate_memory_check(file, s);
     if (rc == CX_OK)
         rc = cx_plan_from_study(s, &plan);
     if (rc == CX_OK)

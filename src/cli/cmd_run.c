@@ -17,6 +17,7 @@
 #include "coexist/study.h"
 #include "cli/args.h"
 #include "cli/commands.h"
+#include "cli/estimate.h"
 
 static void help(void)
 {
@@ -265,6 +266,8 @@ int cx_cmd_run(int argc, char **argv)
         rc = CX_FAIL(CX_ERR_MPI, "the MPI library does not provide MPI_THREAD_FUNNELED");
     if (rc == CX_OK)
         rc = cx_study_load(file, &s);
+    if (rc == CX_OK)
+        rc = cx_estimate_memory_check(file, s);
     if (rc == CX_OK)
         rc = cx_plan_from_study(s, &plan);
     if (rc == CX_OK && rank == 0)

@@ -2,6 +2,7 @@
  * stages (network draw, drive) are charged once per distinct key, as the engine's work units pay
  * them; each cell pays its own solve and probes. */
 #include <stdlib.h>
+#include <unistd.h>
 
 #include "coexist/cell.h"
 #include "coexist/error.h"
@@ -62,5 +63,34 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
 done:
     free(nk);
     free(dk);
+    return rc;
+}
+
+int cx_estimate_memory_check(const char *path, const cx_study *s)
+{
+    int rc = CX_OK;
+    cx_idx cells = cx_study_cells(s);
+    cx_idx step = cells > 10000 ? cells / 10000 : 1;
+    double cell_max = 0.0;
+    for (cx_idx c = 0; c < cells; c += step) {
+        cx_cell_params p;
+        CX_TRY(cx_study_bind(s, c, &p));
+        double m = cx_cell_memory_bytes(&p);
+        if (m > cell_max)
+            cell_max = m;
+    }
+    long pages = sysconf(_SC_PHYS_PAGES), page = sysconf(_SC_PAGE_SIZE);
+    if (pages <= 0 || page <= 0)
+        return CX_OK; /* unknown: nothing to compare with */
+    double have = (double)pages * (double)page;
+    double book = (double)cells * CX_BOOKKEEPING_BYTES;
+    const double gib = 1073741824.0;
+    CX_REQUIRE(book + cell_max <= have, CX_ERR_INVALID,
+               "%s: the sweep needs about %.3g GiB of memory on rank 0 (%lld cells x %.0f bytes of "
+               "bookkeeping + %.3g GiB for its largest cell), more than this machine's %.3g GiB; "
+               "shrink an axis or split the sweep into several files",
+               path, (book + cell_max) / gib, (long long)cells, CX_BOOKKEEPING_BYTES,
+               cell_max / gib, have / gib);
+done:
     return rc;
 }

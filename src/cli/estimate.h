@@ -16,4 +16,11 @@ typedef struct cx_estimate {
  * src/cell/keys.c. OUT: *e. Not collective. */
 int cx_estimate_study(const cx_study *s, cx_estimate *e /* out */);
 
+/* Refuse a study that cannot fit in this machine's memory: the engine's per-cell bookkeeping on
+ * rank 0 (keys, costs, masks: CX_BOOKKEEPING_BYTES per cell) plus the largest cell's own memory
+ * (sampled over at most 10,000 cells), against the physical memory. CX_ERR_INVALID with a
+ * message naming the file when it does not fit. Not collective. */
+#define CX_BOOKKEEPING_BYTES 64.0
+int cx_estimate_memory_check(const char *path, const cx_study *s);
+
 #endif

@@ -27,6 +27,7 @@
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
+#include <sys/statvfs.h>
 
 #include <mpi.h>
 #include <hdf5.h>
@@ -77,8 +78,17 @@ static const var_def vars[] = {
     {"status", SHAPE_CELL, TY_STATUS, NULL, "state of the cell: computed, failed (why), ..."},
     {"multifunctional", SHAPE_CELL, TY_I8, "1",
      "1 when every task's own run is reconstructed, 0 when not, -1 not computed"},
-    {"untrained", SHAPE_CELL, TY_I16, "runs",
-     "random-start runs that found an untrained attractor, -1 not computed"},
+    {"untrained", SHAPE_CELL, TY_I16, "attractors",
+     "distinct untrained attractors the runs ended on (fixed points, periodic orbits, aperiodic), "
+     "-1 not computed"},
+    {"untrained_fixed_points", SHAPE_CELL, TY_I16, "attractors",
+     "distinct fixed points the runs ended on, -1 not computed"},
+    {"untrained_cycles", SHAPE_CELL, TY_I16, "attractors",
+     "distinct untrained periodic orbits the runs ended on, -1 not computed"},
+    {"untrained_aperiodic", SHAPE_CELL, TY_I16, "attractors",
+     "distinct untrained aperiodic attractors the runs ended on, -1 not computed"},
+    {"cluster", SHAPE_RUN, TY_I8, "1",
+     "which of the cell's distinct untrained attractors the run ended on, -1 none or not run"},
     {"rho_unscaled", SHAPE_CELL, TY_F64, "1",
      "largest eigenvalue modulus of the unscaled recurrent matrix"},
     {"wout_norm", SHAPE_CELL, TY_F64, "1", "Frobenius norm of the trained readout"},
@@ -537,6 +547,48 @@ static hid_t serial_fapl(int locking)
     return fapl;
 }
 
+/* Bytes the early-allocated datasets of a cube take, plus its metadata: 32 KiB and 1 KiB per
+ * dataset (a 96-cell cube of 28 datasets measured 65 KB, of which 26 KB were data). */
+static double cube_bytes(const cx_plan *p)
+{
+    double cells = (double)p->ncells, runs = (double)p->max_runs, tasks = (double)p->max_tasks;
+    double per_cell = 0.0;
+    for (int v = 0; v < NVARS; v++) {
+        double size = vars[v].type == TY_F64 ? 8.0 : vars[v].type == TY_I16 ? 2.0 : 1.0;
+        double n = vars[v].shape == SHAPE_CELL  ? 1.0
+                   : vars[v].shape == SHAPE_RUN ? runs
+                                                : runs * tasks;
+        per_cell += size * n;
+    }
+    return cells * per_cell + 32768.0 + 1024.0 * (double)NVARS;
+}
+
+/* Refuse to start a cube that the file system cannot hold: HDF5 cannot close a file whose
+ * metadata flush failed for lack of space, and the open id then breaks MPI_Finalize. */
+static int check_space(const char *path, const cx_plan *p)
+{
+    char dir[CX_PATH_LEN];
+    snprintf(dir, sizeof dir, "%s", path);
+    char *slash = strrchr(dir, '/');
+    if (slash == NULL)
+        snprintf(dir, sizeof dir, ".");
+    else if (slash == dir)
+        dir[1] = '\0';
+    else
+        *slash = '\0';
+    struct statvfs fs;
+    if (statvfs(dir, &fs) != 0)
+        return CX_OK; /* unknown: let the create report what goes wrong */
+    double have = (double)fs.f_bavail * (double)fs.f_frsize;
+    double need = 1.05 * cube_bytes(p);
+    if (have < need)
+        return CX_FAIL(CX_ERR_IO,
+                       "no space for %s: the cube needs about %.3g MiB and %s has %.3g "
+                       "MiB free; free some space or choose another directory",
+                       path, need / 1048576.0, dir, have / 1048576.0);
+    return CX_OK;
+}
+
 int cx_cube_create(const char *path, const cx_plan *p, int ranks, double start_time)
 {
     int rc = CX_OK;
@@ -544,6 +596,7 @@ int cx_cube_create(const char *path, const cx_plan *p, int ranks, double start_t
     char tmp[CX_PATH_LEN + 16];
     int made = 0;
     quiet_hdf5();
+    CX_TRY(check_space(path, p));
     snprintf(tmp, sizeof tmp, "%s.creating", path);
     unlink(tmp);
     CX_H5(fapl = serial_fapl(1), "H5Pcreate");
@@ -786,13 +839,19 @@ static void value_of(int v, const decoded *d, int k, int t, unsigned char *out)
         *out = 1; /* done */
         return;
     case TY_I8: {
-        signed char s =
-            (signed char)(strcmp(name, "attractor") == 0 ? m->attractor : r->multifunctional);
+        int v8 = strcmp(name, "attractor") == 0 ? m->attractor
+                 : strcmp(name, "cluster") == 0 ? m->cluster
+                                                : r->multifunctional;
+        signed char s = (signed char)v8;
         memcpy(out, &s, 1);
         return;
     }
     case TY_I16: {
-        short s = (short)r->untrained;
+        int v16 = strcmp(name, "untrained_fixed_points") == 0 ? r->untrained_kinds[0]
+                  : strcmp(name, "untrained_cycles") == 0     ? r->untrained_kinds[1]
+                  : strcmp(name, "untrained_aperiodic") == 0  ? r->untrained_kinds[2]
+                                                              : r->untrained;
+        short s = (short)v16;
         memcpy(out, &s, 2);
         return;
     }
@@ -957,6 +1016,22 @@ int cx_cube_close(cx_cube **pc)
     return rc;
 }
 
+/* A per-cell dataset must hold exactly `cells` values before it is read whole into a buffer of
+ * that size (a damaged or foreign file may disagree with its own `cells` attribute). */
+static int check_cells(hid_t d, cx_idx cells, const char *name, const char *path)
+{
+    hid_t sp = H5Dget_space(d);
+    hssize_t n = sp >= 0 ? H5Sget_simple_extent_npoints(sp) : -1;
+    if (sp >= 0)
+        H5Sclose(sp);
+    if (n != (hssize_t)cells)
+        return CX_FAIL(
+            CX_ERR_INVALID,
+            "%s is not a valid coexist cube: dataset %s holds %lld values for %lld cells", path,
+            name, (long long)n, (long long)cells);
+    return CX_OK;
+}
+
 int cx_cube_summarize(const char *path, cx_cube_summary *s, uint8_t **done_out)
 {
     int rc = CX_OK;
@@ -993,13 +1068,17 @@ int cx_cube_summarize(const char *path, cx_cube_summary *s, uint8_t **done_out)
         H5Aclose(a);
         CX_H5(e, "H5Aread");
     }
+    CX_REQUIRE(s->ncells > 0, CX_ERR_INVALID, "%s is not a coexist cube: it declares %lld cells",
+               path, (long long)s->ncells);
     CX_ALLOC(done, s->ncells);
     CX_ALLOC(status, s->ncells);
     CX_ALLOC(wall, s->ncells);
     CX_H5(d = H5Dopen2(file, "done", H5P_DEFAULT), "done");
+    CX_TRY(check_cells(d, s->ncells, "done", path));
     CX_H5(H5Dread(d, H5T_NATIVE_UCHAR, H5S_ALL, H5S_ALL, H5P_DEFAULT, done), "read done");
     H5Dclose(d);
     CX_H5(d = H5Dopen2(file, "status", H5P_DEFAULT), "status");
+    CX_TRY(check_cells(d, s->ncells, "status", path));
     {
         hid_t st = make_status_type();
         herr_t e = H5Dread(d, st, H5S_ALL, H5S_ALL, H5P_DEFAULT, status);
@@ -1008,6 +1087,7 @@ int cx_cube_summarize(const char *path, cx_cube_summary *s, uint8_t **done_out)
     }
     H5Dclose(d);
     CX_H5(d = H5Dopen2(file, "wall_time", H5P_DEFAULT), "wall_time");
+    CX_TRY(check_cells(d, s->ncells, "wall_time", path));
     CX_H5(H5Dread(d, H5T_NATIVE_DOUBLE, H5S_ALL, H5S_ALL, H5P_DEFAULT, wall), "read wall");
     H5Dclose(d);
     d = -1;

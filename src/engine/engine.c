@@ -667,7 +667,8 @@ static int prepare(const cx_plan *plan, const cx_engine_opts *o, int ranks, doub
     else
         *slash = '\0';
     if (!is_dir(dir))
-        CX_RAISE(CX_ERR_INVALID, "cannot write %s: directory %s does not exist", o->cube, dir);
+        CX_RAISE(CX_ERR_INVALID, "cannot write %s: %s %s", o->cube, dir,
+                 access(dir, F_OK) == 0 ? "is not a directory" : "does not exist");
     if (access(dir, W_OK | X_OK) != 0)
         CX_RAISE(CX_ERR_INVALID, "cannot write %s: directory %s is not writable", o->cube, dir);
     CX_TRY(cx_cube_probe(o->cube, &kind));
@@ -1081,7 +1082,8 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
         pthread_join(wd.thread, NULL);
         wd_started = 0;
     }
-    rc = agree(comm, run_rc);
+    /* Kept apart from rc: the MPI_TRY calls below assign rc and would erase a failure. */
+    int agreed = agree(comm, run_rc);
 
     /* Sums over ranks: stage counts, compute and write seconds. */
     int64_t mine[7] = {0}, sum[7];
@@ -1099,11 +1101,11 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     st->write_seconds = dsum[1];
     if (comp_ready) {
         int jrc = computer_free(&comp);
-        if (rc == CX_OK)
-            rc = jrc;
+        if (agreed == CX_OK)
+            agreed = jrc;
         comp_ready = 0;
     }
-    CX_TRY(agree(comm, rc));
+    CX_TRY(agree(comm, agreed));
 
     int64_t fin[2] = {0, 0};
     if (rank == 0) {

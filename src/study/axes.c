@@ -80,10 +80,13 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-static int find_duplicate(const double *v, cx_idx n, double *dup)
+/* OUT: *found = 1 and *dup = the value when two values agree within 1e-9 relative. The
+ * answer is not folded into the return code, which is an error code (CX_ERR_NOMEM is 1). */
+static int find_duplicate(const double *v, cx_idx n, double *dup, int *found_out)
 {
     int rc = CX_OK, found = 0;
     double *c = NULL;
+    *found_out = 0;
     CX_ALLOC(c, n);
     memcpy(c, v, (size_t)n * sizeof *c);
     qsort(c, (size_t)n, sizeof *c, cmp_double);
@@ -92,9 +95,10 @@ static int find_duplicate(const double *v, cx_idx n, double *dup)
             *dup = c[i];
             found = 1;
         }
+    *found_out = found;
 done:
     free(c);
-    return rc != CX_OK ? rc : found;
+    return rc;
 }
 
 static int range_count(const char *file, const cx_ynode *n, const char *key, cx_idx *len)
@@ -214,8 +218,9 @@ static int numeric_values(const cx_study *s, const cx_ynode *n, const char *key,
         CX_RAISE(cx_sv_fail(s->file, n, key, "a list of values or a range mapping"), NULL);
     }
     double dup = 0;
-    rc = find_duplicate(a->values, a->len, &dup);
-    if (rc == 1) {
+    int found = 0;
+    CX_TRY(find_duplicate(a->values, a->len, &dup, &found));
+    if (found) {
         char got[64];
         snprintf(got, sizeof got, "%.17g twice", dup);
         rc = CX_FAIL(CX_ERR_INVALID, "%s:%d:%d: %s: expected distinct values, got %s", s->file,

@@ -291,7 +291,7 @@ int cx_study_load(const char *path, cx_study **out)
         len += got;
         if (got == 0) {
             if (ferror(f))
-                CX_RAISE(CX_ERR_IO, "cannot read sweep file %s: %s", path, strerror(errno));
+                CX_RAISE(CX_ERR_INVALID, "cannot read sweep file %s: %s", path, strerror(errno));
             break;
         }
     }
