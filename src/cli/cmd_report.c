@@ -405,15 +405,8 @@ int cx_cmd_report(int argc, char **argv)
             help();
             return CX_EXIT_OK;
         }
-        if (strcmp(argv[i], "-o") == 0) {
-            if (i + 1 >= argc) {
-                fprintf(stderr, "coexist report: -o needs a value\n");
-                return CX_EXIT_BAD_INPUT;
-            }
-            dir = argv[++i];
-            continue;
-        }
-        if ((k = cx_arg_value(argc, argv, &i, "--output", &dir)) != 0 ||
+        if ((k = cx_arg_value(argc, argv, &i, "-o", &dir)) != 0 ||
+            (k = cx_arg_value(argc, argv, &i, "--output", &dir)) != 0 ||
             (k = cx_arg_value(argc, argv, &i, "--by", &by)) != 0 ||
             (k = cx_arg_value(argc, argv, &i, "--where", &where)) != 0 ||
             (k = cx_arg_value(argc, argv, &i, "--over", &over)) != 0) {

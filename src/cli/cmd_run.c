@@ -141,15 +141,8 @@ int cx_cmd_run(int argc, char **argv)
             help();
             return CX_EXIT_OK;
         }
-        if (strcmp(argv[i], "-o") == 0) {
-            if (i + 1 >= argc) {
-                fprintf(stderr, "coexist run: -o needs a value\n");
-                return CX_EXIT_BAD_INPUT;
-            }
-            out = argv[++i];
-            continue;
-        }
-        if ((k = cx_arg_value(argc, argv, &i, "--output", &out)) != 0) {
+        if ((k = cx_arg_value(argc, argv, &i, "-o", &out)) != 0 ||
+            (k = cx_arg_value(argc, argv, &i, "--output", &out)) != 0) {
             if (k < 0)
                 return CX_EXIT_BAD_INPUT;
             continue;
