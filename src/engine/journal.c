@@ -104,9 +104,9 @@ done:
 static int check_header(const char *path, uint64_t hash, int max_runs, int max_tasks, int *rank)
 {
     int rc = CX_OK;
-    uint64_t h;
-    size_t rs;
-    int mr, mt;
+    uint64_t h = 0;
+    size_t rs = 0;
+    int mr = -1, mt = -1;
     CX_TRY(cx_journal_peek(path, &h, rank, &rs, &mr, &mt));
     CX_REQUIRE(h == hash, CX_ERR_MISMATCH,
                "journal %s belongs to a different study (hash %016llx, expected %016llx)", path,
