@@ -5,8 +5,9 @@
  *   coexist-bench [--quick] [--json FILE] [--numpy-cells K]
  *
  * 1. Kernels: drive (open loop, no Gram) and probe (closed loop) steps of an N-node network with
- *    libm and vector tanh, in ns per node per RK4 stage; tanh alone per element; dgemm
- *    (1000^3) and dsyrk (2N features, the drive's block and a long block) rates.
+ *    each tanh evaluation (libm, SLEEF, our own expm1-based one), in ns per node per RK4 stage;
+ * tanh alone per element; dgemm (1000^3) and dsyrk (2N features, the drive's block and a long
+ * block) rates.
  * 2. Bound: one RK4 step of the probe costs 4 stages x (2 nnz + 2 N dim + 2 nfeat dim + 8 N)
  *    flops plus 4 N tanh (the drive the same without the readout term); at the dgemm rate and
  *    the best tanh rate measured here that is the least time a step could take (a roofline-
@@ -78,13 +79,18 @@ typedef struct options {
     int numpy_cells;
 } options;
 
+/* The tanh evaluations compared (enum cx_tanh order) and the one of the fast paths. */
+#define CX_BENCH_TANHS 3
+static const char *const tanh_names[CX_BENCH_TANHS] = {"libm", "vector", "expm1"};
+#define CX_BENCH_FAST CX_TANH_EXPM1
+
 typedef struct kernel_figs {
     cx_idx n;
-    double drive_libm, drive_vector; /* ns per node per RK4 stage */
-    double probe_libm, probe_vector;
-    double probe_batch[4]; /* vector tanh, B = 1, 2, 4, 8 runs per block, per node per run */
-    double tanh_libm, tanh_vector; /* ns per element */
-    double dgemm;                  /* GFLOP/s */
+    double drive[CX_BENCH_TANHS]; /* ns per node per RK4 stage, by enum cx_tanh */
+    double probe[CX_BENCH_TANHS];
+    double probe_batch[4];          /* fast tanh, B = 1, 2, 4, 8 runs per block, per node per run */
+    double tanh_ns[CX_BENCH_TANHS]; /* ns per element */
+    double dgemm;                   /* GFLOP/s */
     double dsyrk_block, dsyrk_long;
     double gram;                     /* GFLOP/s through cx_res_drive */
     double drive_bound, probe_bound; /* ns per node per stage */
@@ -223,7 +229,7 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         u[s * dim + 1] = sin(0.01 * (double)s);
     }
     const double per = 1e9 / ((double)steps * 4.0 * (double)n);
-    for (int mode = 0; mode < 2; mode++) {
+    for (int mode = 0; mode < CX_BENCH_TANHS; mode++) {
         res.tanh_mode = mode;
         double bd = INFINITY, bp = INFINITY;
         for (int rep = 0; rep < 3; rep++) {
@@ -237,13 +243,8 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
             CX_TRY(cx_res_probe(ws, &res, wout, 0.01, steps, NULL, NULL, r, NULL, &done_steps));
             bp = fmin(bp, (now() - t0) * per);
         }
-        if (mode == CX_TANH_LIBM) {
-            kf->drive_libm = bd;
-            kf->probe_libm = bp;
-        } else {
-            kf->drive_vector = bd;
-            kf->probe_vector = bp;
-        }
+        kf->drive[mode] = bd;
+        kf->probe[mode] = bp;
     }
     {
         /* batched probes: B runs from the same start, per node per run per stage */
@@ -251,7 +252,7 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         double *rb = NULL;
         CX_ALLOC(rb, n * 8);
         CX_TRY(cx_res_ws_set_batch(ws, 8));
-        res.tanh_mode = CX_TANH_VECTOR;
+        res.tanh_mode = CX_BENCH_FAST;
         for (int q = 0; q < 4; q++) {
             double *rs[8];
             cx_idx sd[8], sa[8];
@@ -263,7 +264,8 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
                         rs[b][i] = 0.01 * (double)((i * 7 + b) % 13);
                 }
                 double t0 = now();
-                rc = cx_res_probe_batch(ws, &res, wout, 0.01, steps, NULL, NULL, NULL, bs[q], rs,
+                const double *wo[8] = {wout, wout, wout, wout, wout, wout, wout, wout};
+                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, NULL, NULL, bs[q], rs,
                                         NULL, sd, sa);
                 best = fmin(best, (now() - t0) * per / (double)bs[q]);
                 if (rc != CX_OK)
@@ -278,8 +280,8 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
     }
     for (cx_idx i = 0; i < n; i++)
         r[i] = 2.5 * sin(0.37 * (double)i); /* pre-activations of the usual size */
-    kf->tanh_libm = time_tanh(CX_TANH_LIBM, x, r, n, quick ? 200 : 2000);
-    kf->tanh_vector = time_tanh(CX_TANH_VECTOR, x, r, n, quick ? 200 : 2000);
+    for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
+        kf->tanh_ns[mode] = time_tanh(mode, x, r, n, quick ? 200 : 2000);
     kf->dgemm = gflops_dgemm();
     kf->dsyrk_block = gflops_dsyrk((int)nf, 512, quick ? 2 : 6);
     kf->dsyrk_long = gflops_dsyrk((int)nf, 2048, quick ? 1 : 3);
@@ -296,7 +298,7 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         CX_CALLOC(c, nf * dim);
         for (cx_idx i = 0; i < n; i++)
             r[i] = 0.0;
-        res.tanh_mode = CX_TANH_VECTOR;
+        res.tanh_mode = CX_BENCH_FAST;
         double g0 = cx_res_ws_gram_seconds(ws);
         rc = cx_res_drive(ws, &res, ug, 0.01, 0, gsteps, 1, r, g, c);
         double gs = cx_res_ws_gram_seconds(ws) - g0;
@@ -307,7 +309,9 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
     }
     /* The bound, per node per stage. */
     const double ns_flop = 1.0 / kf->dgemm; /* ns per flop at the dgemm rate */
-    const double t_tanh = fmin(kf->tanh_libm, kf->tanh_vector);
+    double t_tanh = INFINITY;
+    for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
+        t_tanh = fmin(t_tanh, kf->tanh_ns[mode]);
     const double drive_flops = 2.0 * deg + 2.0 * dim + 8.0;
     const double probe_flops = drive_flops + 2.0 * 2.0 * dim; /* 2 nfeat dim / n = 4 dim */
     kf->drive_bound = drive_flops * ns_flop + t_tanh;
@@ -337,37 +341,56 @@ static int make_study(const options *o, const char *tanh_mode, const char *early
     return cx_study_load_buffer(text, (size_t)len, "bench-sweep", s);
 }
 
-/* Run every cell of the sweep in grid order; labels[cell * CX_MAX_RUNS + run] out. */
-static int run_sweep(const cx_study *s, sweep_figs *sf, int *labels, double *cell_seconds)
+/* Add one cell's stage times, labels and outcomes to the sweep figures. */
+static void account(const cx_cell_params *p, const cx_cell_result *r, cx_idx cell, sweep_figs *sf,
+                    int *labels, double *cell_seconds)
+{
+    sf->network += r->time.network;
+    sf->drive += r->time.drive - r->time.gram;
+    sf->gram += r->time.gram;
+    sf->solve += r->time.solve;
+    sf->probes += r->time.probes;
+    sf->classify += r->time.classify;
+    if (r->time.gram > 0.0) {
+        double nf = 2.0 * (double)p->net.nodes;
+        double samples = (double)p->ntasks * (double)cx_cell_steps(p->train.length, p->train.dt);
+        sf->gram_gflops += samples * (nf * (nf + 1.0) + 4.0 * nf) * 1e-9;
+    }
+    cell_seconds[cell] = r->time.total;
+    for (int j = 0; j < r->nruns; j++) {
+        labels[cell * CX_MAX_RUNS + j] = r->status == CX_CELL_COMPUTED ? r->runs[j].outcome : -1;
+        if (r->status == CX_CELL_COMPUTED && r->runs[j].outcome >= 0 && r->runs[j].outcome < 8)
+            sf->outcomes[r->runs[j].outcome]++;
+    }
+    sf->runs += r->nruns;
+}
+
+/* Run every cell of the sweep in grid order, in groups of up to CX_CELL_GROUP cells as the
+ * engine hands them to cx_cell_compute_group (group = 0: one cell at a time);
+ * labels[cell * CX_MAX_RUNS + run] out. */
+static int run_sweep(const cx_study *s, int group, sweep_figs *sf, int *labels,
+                     double *cell_seconds)
 {
     int rc = CX_OK;
     cx_cell_ws *ws = NULL;
+    cx_cell_params p[CX_CELL_GROUP];
+    cx_cell_result rg[CX_CELL_GROUP];
     CX_TRY(cx_cell_ws_create(&ws));
     sf->cells = cx_study_cells(s);
     double t0 = now(), c0 = cpu_now();
-    for (cx_idx cell = 0; cell < sf->cells; cell++) {
-        cx_cell_params p;
-        cx_cell_result r;
-        CX_TRY(cx_study_bind(s, cell, &p));
-        CX_TRY(cx_cell_compute(ws, &p, cell, &r));
-        sf->network += r.time.network;
-        sf->drive += r.time.drive - r.time.gram;
-        sf->gram += r.time.gram;
-        sf->solve += r.time.solve;
-        sf->probes += r.time.probes;
-        sf->classify += r.time.classify;
-        if (r.time.gram > 0.0) {
-            double nf = 2.0 * (double)p.net.nodes;
-            double samples = (double)p.ntasks * (double)cx_cell_steps(p.train.length, p.train.dt);
-            sf->gram_gflops += samples * (nf * (nf + 1.0) + 4.0 * nf) * 1e-9;
+    for (cx_idx first = 0; first < sf->cells;) {
+        const cx_cell_params *pp[CX_CELL_GROUP];
+        cx_idx ids[CX_CELL_GROUP];
+        int k = 0, used = 0;
+        for (; k < (group ? CX_CELL_GROUP : 1) && first + k < sf->cells; k++) {
+            CX_TRY(cx_study_bind(s, first + k, &p[k]));
+            pp[k] = &p[k];
+            ids[k] = first + k;
         }
-        cell_seconds[cell] = r.time.total;
-        for (int j = 0; j < r.nruns; j++) {
-            labels[cell * CX_MAX_RUNS + j] = r.status == CX_CELL_COMPUTED ? r.runs[j].outcome : -1;
-            if (r.status == CX_CELL_COMPUTED && r.runs[j].outcome >= 0 && r.runs[j].outcome < 8)
-                sf->outcomes[r.runs[j].outcome]++;
-        }
-        sf->runs += r.nruns;
+        CX_TRY(cx_cell_compute_group(ws, pp, ids, k, rg, &used));
+        for (int g = 0; g < used; g++)
+            account(&p[g], &rg[g], first + g, sf, labels, cell_seconds);
+        first += used;
     }
     sf->total = now() - t0;
     sf->cpu = cpu_now() - c0;
@@ -377,6 +400,8 @@ done:
     cx_cell_ws_destroy(&ws);
     return rc;
 }
+
+/* Add one cell's stage times, labels and outcomes to the sweep figures. */
 
 /* The i-th of k sample cells, spread evenly over the grid (both node counts when k >= 2). */
 static cx_idx sample_cell(const cx_study *s, int i, int k)
@@ -443,19 +468,24 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
         fprintf(f, "{\n  \"quick\": %s,\n  \"kernels\": [\n", quick ? "true" : "false");
         for (int i = 0; i < nk; i++) {
             const kernel_figs *k = &kf[i];
+            fprintf(f, "    {\"nodes\": %lld", (long long)k->n);
+            const char *what[3] = {"drive_ns_node_stage", "probe_ns_node_stage", "tanh_ns"};
+            const double *figs[3] = {k->drive, k->probe, k->tanh_ns};
+            for (int q = 0; q < 3; q++) {
+                fprintf(f, ", \"%s\": {", what[q]);
+                for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
+                    fprintf(f, "%s\"%s\": %.3f", mode ? ", " : "", tanh_names[mode], figs[q][mode]);
+                fprintf(f, "}");
+            }
             fprintf(f,
-                    "    {\"nodes\": %lld, \"drive_ns_node_stage\": {\"libm\": %.3f, \"vector\": "
-                    "%.3f}, \"probe_ns_node_stage\": {\"libm\": %.3f, \"vector\": %.3f}, "
-                    "\"probe_batched_ns_node_run_stage\": {\"1\": %.3f, \"2\": %.3f, \"4\": %.3f, "
-                    "\"8\": %.3f}, "
-                    "\"tanh_ns\": {\"libm\": %.3f, \"vector\": %.3f}, \"dgemm_gflops\": %.2f, "
+                    ", \"fast_tanh\": \"%s\", \"probe_batched_ns_node_run_stage\": {\"1\": %.3f, "
+                    "\"2\": %.3f, \"4\": %.3f, \"8\": %.3f}, \"dgemm_gflops\": %.2f, "
                     "\"dsyrk_gflops\": {\"block_512\": %.2f, \"block_2048\": %.2f}, "
                     "\"gram_gflops\": %.2f, \"bound_ns_node_stage\": {\"drive\": %.3f, "
                     "\"probe\": %.3f}}%s\n",
-                    (long long)k->n, k->drive_libm, k->drive_vector, k->probe_libm, k->probe_vector,
-                    k->probe_batch[0], k->probe_batch[1], k->probe_batch[2], k->probe_batch[3],
-                    k->tanh_libm, k->tanh_vector, k->dgemm, k->dsyrk_block, k->dsyrk_long, k->gram,
-                    k->drive_bound, k->probe_bound, i + 1 < nk ? "," : "");
+                    tanh_names[CX_BENCH_FAST], k->probe_batch[0], k->probe_batch[1],
+                    k->probe_batch[2], k->probe_batch[3], k->dgemm, k->dsyrk_block, k->dsyrk_long,
+                    k->gram, k->drive_bound, k->probe_bound, i + 1 < nk ? "," : "");
         }
         fprintf(f,
                 "  ],\n  \"sweep\": {\"cells\": %lld, \"seconds\": {\"network\": %.3f, \"drive\": "
@@ -482,18 +512,17 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
     fprintf(f, "|---|---|---|---|---|\n");
     for (int i = 0; i < nk; i++) {
         const kernel_figs *k = &kf[i];
-        fprintf(f, "| %lld | libm | %.2f | %.2f | %.2f |\n", (long long)k->n, k->drive_libm,
-                k->probe_libm, k->tanh_libm);
-        fprintf(f, "| %lld | vector | %.2f | %.2f | %.2f |\n", (long long)k->n, k->drive_vector,
-                k->probe_vector, k->tanh_vector);
-        fprintf(f, "| %lld | vector, batched B = 1/2/4/8 | | %.2f / %.2f / %.2f / %.2f | |\n",
-                (long long)k->n, k->probe_batch[0], k->probe_batch[1], k->probe_batch[2],
-                k->probe_batch[3]);
+        for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
+            fprintf(f, "| %lld | %s | %.2f | %.2f | %.2f |\n", (long long)k->n, tanh_names[mode],
+                    k->drive[mode], k->probe[mode], k->tanh_ns[mode]);
+        fprintf(f, "| %lld | %s, batched B = 1/2/4/8 | | %.2f / %.2f / %.2f / %.2f | |\n",
+                (long long)k->n, tanh_names[CX_BENCH_FAST], k->probe_batch[0], k->probe_batch[1],
+                k->probe_batch[2], k->probe_batch[3]);
         fprintf(f,
                 "| %lld | bound | %.2f (achieved/bound %.2f) | %.2f (achieved/bound %.2f) | "
                 "dgemm %.1f GFLOP/s |\n",
-                (long long)k->n, k->drive_bound, k->drive_vector / k->drive_bound, k->probe_bound,
-                k->probe_vector / k->probe_bound, k->dgemm);
+                (long long)k->n, k->drive_bound, k->drive[CX_BENCH_FAST] / k->drive_bound,
+                k->probe_bound, k->probe[CX_BENCH_FAST] / k->probe_bound, k->dgemm);
         fprintf(f,
                 "| %lld | Gram | %.1f GFLOP/s = %.0f %% of dsyrk(k=2048) %.1f; dsyrk(k=512) %.1f "
                 "| | |\n",
@@ -561,15 +590,15 @@ int main(int argc, char **argv)
     const cx_idx sizes[2] = {1000, 500};
     for (int i = 0; i < nk; i++)
         CX_TRY(kernels(sizes[i], o.quick, &kf[i]));
-    CX_TRY(make_study(&o, "vector", "true", &fast));
+    CX_TRY(make_study(&o, tanh_names[CX_BENCH_FAST], "true", &fast));
     CX_TRY(make_study(&o, "libm", "false", &plain));
     cx_idx cells = cx_study_cells(fast);
     CX_CALLOC(lf, cells * CX_MAX_RUNS);
     CX_CALLOC(lp, cells * CX_MAX_RUNS);
     CX_CALLOC(tf, cells);
     CX_CALLOC(tp, cells);
-    CX_TRY(run_sweep(fast, &sf, lf, tf));
-    CX_TRY(run_sweep(plain, &base, lp, tp));
+    CX_TRY(run_sweep(fast, 1, &sf, lf, tf));
+    CX_TRY(run_sweep(plain, 0, &base, lp, tp));
     sf.labels_same = memcmp(lf, lp, (size_t)(cells * CX_MAX_RUNS) * sizeof *lf) == 0;
     int k = o.numpy_cells < cells ? o.numpy_cells : (int)cells;
     for (int i = 0; i < k; i++)

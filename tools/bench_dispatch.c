@@ -63,7 +63,7 @@ static void idle_counts(const void *p, cx_cell_counts *c)
     c->solves = ((const idle_state *)p)->cells;
 }
 
-static const cx_engine_ops idle_ops = {idle_create, idle_destroy, idle_compute, idle_counts};
+static const cx_engine_ops idle_ops = {idle_create, idle_destroy, idle_compute, idle_counts, NULL};
 
 int main(int argc, char **argv)
 {

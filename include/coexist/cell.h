@@ -84,6 +84,18 @@ void cx_cell_ws_keep(cx_cell_ws *ws, int keep);
 int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell,
                     cx_cell_result *out /* out */);
 
+/* Most cells computed together by cx_cell_compute_group. */
+#define CX_CELL_GROUP 8
+
+/* Compute the leading cells of p[0..k-1] that differ from p[0] only in their readout's
+ * parameters (blend, weights, ridge), at most CX_CELL_GROUP of them: their drive is shared and
+ * the closed-loop runs of all of them advance together in blocks (cells of a blend axis, in the
+ * order the engine hands them out). Each result is bit for bit what cx_cell_compute gives for
+ * that cell alone, except the timings: the block's probe time is shared out evenly. Always
+ * computes at least one cell. OUT: out[0..*used-1], *used. Not collective. */
+int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const cx_idx *cells,
+                          int k, cx_cell_result *out /* out */, int *used /* out */);
+
 void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c /* out */);
 /* How many closed-loop runs of this workspace ended early on a fixed point (probe.early_stop). */
 int64_t cx_cell_ws_settled(const cx_cell_ws *ws);

@@ -204,14 +204,18 @@ typedef struct cx_cube_summary {
 } cx_cube_summary;
 int cx_cube_summarize(const char *path, cx_cube_summary *s /* out */, uint8_t **done /* out */);
 
-/* What computes a cell. The default uses cx_study_bind + cx_cell_compute; tests and
- * benchmarks plug in their own. */
+/* What computes a cell. The default uses cx_study_bind + cx_cell_compute_group; tests and
+ * benchmarks plug in their own. compute_group may be NULL (cells one at a time through compute);
+ * otherwise it computes the leading *used (>= 1) of cells[0..n-1], n <= CX_CELL_GROUP, into
+ * out[0..*used-1], each as compute would, and the engine records them one by one. */
 typedef struct cx_engine_ops {
     int (*create)(void **state);
     void (*destroy)(void **state);
     int (*compute)(void *state, const cx_study *s, const cx_plan *plan, cx_idx cell,
                    cx_cell_result *out /* out */);
     void (*counts)(const void *state, cx_cell_counts *c /* out */);
+    int (*compute_group)(void *state, const cx_study *s, const cx_plan *plan, const int64_t *cells,
+                         int n, cx_cell_result *out /* out */, int *used /* out */);
 } cx_engine_ops;
 const cx_engine_ops *cx_engine_cell_ops(void);
 

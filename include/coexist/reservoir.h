@@ -27,8 +27,9 @@ enum cx_features {
 /* How tanh is evaluated in the stepping kernels. The two give different last bits, so the
  * choice is a sweep-file key (reservoir.tanh) and part of a study's canonical form. */
 enum cx_tanh {
-    CX_TANH_LIBM = 0,  /* the C library's tanh, one call per node */
-    CX_TANH_VECTOR = 1 /* SLEEF's SIMD tanh, 3.5 ULP bound (see tanh.c) */
+    CX_TANH_LIBM = 0,   /* the C library's tanh, one call per node */
+    CX_TANH_VECTOR = 1, /* SLEEF's SIMD tanh, 3.5 ULP bound (see tanh.c) */
+    CX_TANH_EXPM1 = 2   /* our own, E / (E + 2) with E = expm1(2x), <= 3 ULP measured (tanh.c) */
 };
 
 /* Reservoir parameters of one cell; zero-initialise before filling. */
@@ -146,13 +147,14 @@ int cx_res_probe_settle(cx_res_ws *ws, const cx_reservoir *res, const double *w_
  * call it once before the probes of a cell, never in a loop. */
 int cx_res_ws_set_batch(cx_res_ws *ws, int nb);
 
-/* nruns closed-loop runs of one reservoir and readout advanced together as one n x B block
- * (batch.c). Run b starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim,
- * or y_out / y_out[b] NULL), steps_done[b] and settled_at[b] exactly as cx_res_probe_settle
- * would for that run alone, bit for bit, whatever nruns. nruns <= the size given to
- * cx_res_ws_set_batch. Not collective. */
-int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
-                       cx_idx nsteps, const double *lo, const double *hi,
+/* nruns closed-loop runs of one reservoir advanced together as one n x B block (batch.c). Run b
+ * has the readout w_out[b] (runs may share one, or each have its own, as the cells of a blend
+ * axis do), starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim, or
+ * y_out / y_out[b] NULL), steps_done[b] and settled_at[b] exactly as cx_res_probe_settle would
+ * for that run alone with w_out[b], bit for bit, whatever nruns and whichever runs share the
+ * block. nruns <= the size given to cx_res_ws_set_batch. Not collective. */
+int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
+                       double dt, cx_idx nsteps, const double *lo, const double *hi,
                        const cx_res_settle *settle, int nruns, double *const *r,
                        double *const *y_out /* out */, cx_idx *steps_done /* out */,
                        cx_idx *settled_at /* out */);

@@ -120,6 +120,10 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     free(ws->truth);
     free(ws->kept_y);
     free(ws->kept_start);
+    free(ws->run_ptr);
+    free(ws->run_w);
+    free(ws->steps_done);
+    free(ws->settled_at);
     free(ws);
     *p = NULL;
 }
@@ -306,7 +310,6 @@ static int stage_drive(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservo
         CX_CALLOC(ws->c[k], nf * dim);
         CX_CALLOC(ws->r_end[k], n);
     }
-    CX_ALLOC(ws->w_out, nf * dim);
     CX_ALLOC(ws->work, nf * nf + nf * dim);
     double t0 = now(), g0 = cx_res_ws_gram_seconds(ws->rws);
     for (int k = 0; k < p->ntasks; k++)
@@ -338,6 +341,17 @@ static void blend_weights(const cx_cell_params *p, double *w)
     }
 }
 
+/* Room for the readouts of a group (CX_CELL_GROUP of them, nfeat x dim each). */
+static int ensure_readouts(cx_cell_ws *ws)
+{
+    int rc = CX_OK;
+    if (ws->w_out == NULL)
+        CX_ALLOC(ws->w_out, CX_CELL_GROUP * ws->nfeat * ws->dim);
+done:
+    return rc;
+}
+
+/* Buffers for nruns closed-loop runs (the runs of a whole group). */
 static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns)
 {
     int rc = CX_OK;
@@ -358,6 +372,21 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
         ws->run_r_cap = 0;
         CX_ALLOC(ws->run_r, (cx_idx)nruns * p->net.nodes);
         ws->run_r_cap = (cx_idx)nruns * p->net.nodes;
+    }
+    if (ws->run_ptr_cap < nruns) {
+        free(ws->run_ptr);
+        free(ws->run_w);
+        free(ws->steps_done);
+        free(ws->settled_at);
+        ws->run_ptr = NULL;
+        ws->run_w = NULL;
+        ws->steps_done = ws->settled_at = NULL;
+        ws->run_ptr_cap = 0;
+        CX_ALLOC(ws->run_ptr, 2 * (cx_idx)nruns);
+        CX_ALLOC(ws->run_w, nruns);
+        CX_ALLOC(ws->steps_done, nruns);
+        CX_ALLOC(ws->settled_at, nruns);
+        ws->run_ptr_cap = nruns;
     }
     CX_TRY(cx_res_ws_set_batch(ws->rws, nruns < CX_CELL_BATCH ? nruns : CX_CELL_BATCH));
     if (ws->cws == NULL || ws->cws_cap < ws->horizon + 1 || ws->cws_dim != p->dim) {
@@ -448,29 +477,44 @@ static void result_init(cx_cell_result *out, const cx_cell_params *p, cx_idx cel
     }
 }
 
-int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cell_result *out)
+/* Two cells can share the closed-loop block when they differ at most in their readout's
+ * parameters (blend, weights, ridge): then network, input, drive, start states, bound box and
+ * early-stop test are the same. Compared as bytes of the parameters with those fields made equal
+ * (cx_study_bind zero-initialises the structure, padding included). */
+static int same_but_readout(const cx_cell_params *a, const cx_cell_params *b)
+{
+    cx_cell_params t;
+    memcpy(&t, b, sizeof t);
+    t.train.blend = a->train.blend;
+    t.train.weights_listed = a->train.weights_listed;
+    memcpy(t.train.weights, a->train.weights, sizeof t.train.weights);
+    t.train.ridge = a->train.ridge;
+    return memcmp(&t, a, sizeof t) == 0;
+}
+
+/* Stages 1-4 of one cell: network, input, signals, drive (all cached) and its own readout into
+ * readout slot `slot`. A readout that cannot be solved is a status in *r, not an error. */
+static int cell_solve(cx_cell_ws *ws, const cx_cell_params *p, cx_cell_result *r, cx_reservoir *res,
+                      int slot)
 {
     int rc = CX_OK;
-    double t_start = now(), t0;
-    cx_reservoir res;
-    cx_cell_result r;
-    result_init(&r, p, cell);
+    double t0 = now();
     CX_REQUIRE(p->ntasks >= 1 && p->ntasks <= CX_MAX_TASKS, CX_ERR_INVALID,
                "a cell needs 1 to %d tasks, got %d", CX_MAX_TASKS, p->ntasks);
-    CX_REQUIRE(r.nruns <= CX_MAX_RUNS, CX_ERR_INVALID, "a cell has at most %d runs, got %d",
-               CX_MAX_RUNS, r.nruns);
-
-    t0 = now();
+    CX_REQUIRE(r->nruns <= CX_MAX_RUNS, CX_ERR_INVALID, "a cell has at most %d runs, got %d",
+               CX_MAX_RUNS, r->nruns);
     CX_TRY(stage_network(ws, p));
     CX_TRY(stage_input(ws, p));
-    r.time.network = now() - t0;
-    r.rho_unscaled = ws->rho0;
+    r->time.network = now() - t0;
+    r->rho_unscaled = ws->rho0;
     CX_TRY(stage_series(ws, p));
     CX_TRY(ensure_res_ws(ws, p));
-    assemble(ws, p, &res);
-    CX_TRY(stage_drive(ws, p, &res, &r.time));
+    assemble(ws, p, res);
+    CX_TRY(stage_drive(ws, p, res, &r->time));
+    CX_TRY(ensure_readouts(ws));
+    double *w_out = ws->w_out + (cx_idx)slot * ws->nfeat * p->dim;
 
-    /* Stage 4: the blended readout. */
+    /* Stage 4: the blended readout (into readout slot `slot`). */
     t0 = now();
     double w[CX_MAX_TASKS];
     const double *g[CX_MAX_TASKS], *c[CX_MAX_TASKS];
@@ -480,77 +524,78 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cel
         c[k] = ws->c[k];
     }
     int solve_status = CX_SOLVE_OK;
-    CX_TRY(cx_readout_solve(ws->nfeat, p->dim, p->ntasks, g, c, w, p->train.ridge, ws->work,
-                            ws->w_out, &solve_status));
+    CX_TRY(cx_readout_solve(ws->nfeat, p->dim, p->ntasks, g, c, w, p->train.ridge, ws->work, w_out,
+                            &solve_status));
     ws->counts.solves++;
-    r.time.solve = now() - t0;
+    r->time.solve = now() - t0;
     if (solve_status != CX_SOLVE_OK) {
-        r.status =
+        r->status =
             solve_status == CX_SOLVE_NOT_PD ? CX_CELL_FAILED_NOT_PD : CX_CELL_FAILED_NONFINITE;
-        goto finish;
+        return CX_OK;
     }
-    r.wout_norm = frobenius(ws->w_out, p->dim, ws->nfeat, p->dim, 0);
+    r->wout_norm = frobenius(w_out, p->dim, ws->nfeat, p->dim, 0);
     if (p->res.features != CX_FEAT_LINEAR)
-        r.wout_square_norm = frobenius(ws->w_out, p->dim, p->net.nodes, p->dim, p->net.nodes);
+        r->wout_square_norm = frobenius(w_out, p->dim, p->net.nodes, p->dim, p->net.nodes);
+done:
+    return rc;
+}
 
-    /* Stage 5: closed-loop probes and their classification. */
-    CX_TRY(ensure_run_buffers(ws, p, r.nruns));
+/* What the closed-loop runs of a cell are judged by: the bound box, the early-stop test, the
+ * tail and the trained attractors. The same for every cell of a group. */
+typedef struct probe_setup {
     double lo[CX_MAX_DIM], hi[CX_MAX_DIM];
+    cx_res_settle settle;
+    cx_idx n_tail;
+    const cx_attractor *atts[CX_MAX_TASKS];
+    double big_s;
+} probe_setup;
+
+static void probe_setup_of(const cx_cell_ws *ws, const cx_cell_params *p, probe_setup *ps)
+{
     const double *train_sig[CX_MAX_TASKS];
     cx_idx train_len[CX_MAX_TASKS];
     for (int k = 0; k < p->ntasks; k++) {
         train_sig[k] = ws->training[k];
         train_len[k] = ws->train + 1;
     }
-    cx_class_box(train_sig, train_len, p->ntasks, p->dim, p->cls.bound, lo, hi);
-    cx_idx n_tail = cx_cell_steps(p->probe.tail, p->train.dt);
-    const cx_attractor *atts[CX_MAX_TASKS];
-    double big_s = 0.0;
+    cx_class_box(train_sig, train_len, p->ntasks, p->dim, p->cls.bound, ps->lo, ps->hi);
+    ps->n_tail = cx_cell_steps(p->probe.tail, p->train.dt);
+    ps->big_s = 0.0;
     for (int k = 0; k < p->ntasks; k++) {
-        atts[k] = ws->att[k];
-        big_s += cx_attractor_scale(ws->att[k]) / (double)p->ntasks;
+        ps->atts[k] = ws->att[k];
+        ps->big_s += cx_attractor_scale(ws->att[k]) / (double)p->ntasks;
     }
     /* Early stop on a fixed point: the run must stand still for one whole tail, every step
      * moving the state by at most 1e-11 (max norm; states are O(1)) and the output by at most
      * 1e-6 of the fixed-point threshold fixed_tol * S (S as in the classifier). The tail at the
      * stop is then a fixed point by the classifier's own test with a margin of 1e6 / n_tail, and
      * the settled output fills the rest of the run. Tolerances: our choice, no published source. */
-    cx_res_settle settle = {0, 0.0, 0.0};
+    ps->settle.window = 0;
+    ps->settle.state_step = ps->settle.output_step = 0.0;
     if (p->probe.early_stop) {
-        settle.window = n_tail;
-        settle.state_step = 1e-11;
-        settle.output_step = 1e-6 * p->cls.fixed_tol * big_s;
+        ps->settle.window = ps->n_tail;
+        ps->settle.state_step = 1e-11;
+        ps->settle.output_step = 1e-6 * p->cls.fixed_tol * ps->big_s;
     }
-    /* Every run's start, then all runs advanced together in blocks of CX_CELL_BATCH (bit for
-     * bit what one run at a time gives), then each run classified. */
+}
+
+/* Classify the runs of one cell (outputs in run_y, end states in run_state) and finish *r. */
+static int cell_judge(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoir *res,
+                      const probe_setup *ps, const double *w_out, double *const *run_state,
+                      double *const *run_y, const cx_idx *steps_done, const cx_idx *settled_at,
+                      cx_cell_result *r)
+{
+    int rc = CX_OK;
     const cx_idx len = (ws->horizon + 1) * p->dim;
-    double *run_state[CX_MAX_RUNS], *run_y[CX_MAX_RUNS];
-    cx_idx steps_done[CX_MAX_RUNS], settled_at[CX_MAX_RUNS];
-    t0 = now();
-    for (int j = 0; j < r.nruns; j++) {
-        run_state[j] = ws->run_r + (cx_idx)j * p->net.nodes;
-        run_y[j] = ws->y + (cx_idx)j * len;
-        CX_TRY(run_start(ws, p, &res, j, run_state[j]));
-        if (ws->keep)
-            memcpy(ws->kept_start + (cx_idx)j * p->net.nodes, run_state[j],
-                   (size_t)p->net.nodes * sizeof *ws->r);
-    }
-    for (int j = 0; j < r.nruns; j += CX_CELL_BATCH) {
-        int nb = r.nruns - j < CX_CELL_BATCH ? r.nruns - j : CX_CELL_BATCH;
-        CX_TRY(cx_res_probe_batch(ws->rws, &res, ws->w_out, p->train.dt, ws->horizon, lo, hi,
-                                  &settle, nb, run_state + j, run_y + j, steps_done + j,
-                                  settled_at + j));
-    }
-    r.time.probes += now() - t0;
     double tail_centre[CX_MAX_RUNS][CX_MAX_DIM], tail_amp[CX_MAX_RUNS];
-    for (int j = 0; j < r.nruns; j++) {
-        cx_run_metrics *m = &r.runs[j];
+    for (int j = 0; j < r->nruns; j++) {
+        cx_run_metrics *m = &r->runs[j];
         ws->counts.probes++;
         if (settled_at[j] >= 0)
             ws->settled++;
-        t0 = now();
+        double t0 = now();
         cx_idx n_total = steps_done[j] + 1;
-        cx_idx tail = n_tail < n_total ? n_tail : n_total;
+        cx_idx tail = ps->n_tail < n_total ? ps->n_tail : n_total;
         const double *tr = NULL;
         if (j < p->ntasks) {
             /* the true continuation from the end of training, at whole steps */
@@ -560,36 +605,131 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cel
                     ws->truth[i * p->dim + d] = src[ws->sub * i * p->dim + d];
             tr = ws->truth;
         }
-        CX_TRY(cx_classify_run(ws->cws, &p->cls, atts, p->ntasks, lo, hi, run_y[j], n_total, tail,
-                               p->dim, p->train.dt, j < p->ntasks ? j : -1, tr, m));
+        CX_TRY(cx_classify_run(ws->cws, &p->cls, ps->atts, p->ntasks, ps->lo, ps->hi, run_y[j],
+                               n_total, tail, p->dim, p->train.dt, j < p->ntasks ? j : -1, tr, m));
         cx_cell_tail_shape(run_y[j], n_total, tail, p->dim, tail_centre[j], &tail_amp[j]);
         if (p->probe.lyapunov && m->outcome != CX_OUT_DIVERGED) {
             cx_rng rng;
             uint64_t coords[3] = {p->replicate, (uint64_t)p->net.nodes, (uint64_t)j};
             cx_rng_keyed(&rng, p->study_seed, CX_RNG_LYAPUNOV, coords, 3);
-            CX_TRY(cx_res_lyapunov(ws->rws, &res, ws->w_out, p->train.dt,
+            CX_TRY(cx_res_lyapunov(ws->rws, res, w_out, p->train.dt,
                                    cx_cell_steps(p->probe.lyapunov_time, p->train.dt), 1e-8, &rng,
                                    run_state[j], &m->lyapunov));
         }
-        r.time.classify += now() - t0;
+        r->time.classify += now() - t0;
         if (ws->keep) {
             memcpy(ws->kept_y + (cx_idx)j * len, run_y[j],
                    (size_t)(n_total * p->dim) * sizeof *ws->y);
             ws->kept_len[j] = n_total;
         }
     }
-    r.status = CX_CELL_COMPUTED;
-    r.multifunctional = 1;
+    r->status = CX_CELL_COMPUTED;
+    r->multifunctional = 1;
     for (int k = 0; k < p->ntasks; k++)
-        if (r.runs[k].outcome != CX_OUT_RECONSTRUCTED)
-            r.multifunctional = 0;
+        if (r->runs[k].outcome != CX_OUT_RECONSTRUCTED)
+            r->multifunctional = 0;
     /* Distinct untrained attractors: centres and amplitudes within match_tol * S, periods
      * within 5 % (src/cell/untrained.c). */
-    cx_cell_cluster_untrained(&r, (const double(*)[CX_MAX_DIM])tail_centre, tail_amp, p->dim, big_s,
-                              p->cls.match_tol, 0.05);
-finish:
-    r.time.total = now() - t_start;
-    *out = r;
+    cx_cell_cluster_untrained(r, (const double(*)[CX_MAX_DIM])tail_centre, tail_amp, p->dim,
+                              ps->big_s, p->cls.match_tol, 0.05);
 done:
     return rc;
+}
+
+int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const cx_idx *cells,
+                          int k, cx_cell_result *out, int *used)
+{
+    int rc = CX_OK;
+    double t_start = now();
+    cx_reservoir res;
+    CX_REQUIRE(k >= 1 && p != NULL && cells != NULL && out != NULL && used != NULL, CX_ERR_INVALID,
+               "cell group: %d cells or a NULL argument", k);
+    /* The leading cells that differ only in their readout (never more than CX_CELL_GROUP, and
+     * one at a time when a dump is kept). */
+    int ng = 1;
+    if (!ws->keep)
+        while (ng < k && ng < CX_CELL_GROUP && same_but_readout(p[0], p[ng]))
+            ng++;
+    *used = ng;
+    for (int g = 0; g < ng; g++)
+        result_init(&out[g], p[g], cells[g]);
+    for (int g = 0; g < ng; g++)
+        CX_TRY(cell_solve(ws, p[g], &out[g], &res, g));
+
+    /* Stage 5: every run's start (the same for the whole group: starts depend on the drive and
+     * the seed only), then the runs of all cells whose readout was solved, advanced together in
+     * blocks of CX_CELL_BATCH (bit for bit what one run at a time gives), then each cell judged. */
+    const cx_cell_params *p0 = p[0];
+    const int nruns = out[0].nruns;
+    int total = 0;
+    for (int g = 0; g < ng; g++)
+        if (out[g].status == CX_CELL_NOT_DONE)
+            total += nruns;
+    if (total == 0)
+        goto finish;
+    CX_TRY(ensure_run_buffers(ws, p0, total));
+    probe_setup ps;
+    probe_setup_of(ws, p0, &ps);
+    const cx_idx n = p0->net.nodes;
+    const cx_idx len = (ws->horizon + 1) * p0->dim;
+    double t0 = now();
+    double **run_state = ws->run_ptr, **run_y = ws->run_ptr + total;
+    const double **run_w = ws->run_w;
+    for (int j = 0; j < nruns; j++) {
+        run_state[j] = ws->run_r + (cx_idx)j * n;
+        CX_TRY(run_start(ws, p0, &res, j, run_state[j]));
+        if (ws->keep)
+            memcpy(ws->kept_start + (cx_idx)j * n, run_state[j], (size_t)n * sizeof *ws->r);
+    }
+    int q = 0;
+    for (int g = 0; g < ng; g++) {
+        if (out[g].status != CX_CELL_NOT_DONE)
+            continue;
+        for (int j = 0; j < nruns; j++, q++) {
+            run_state[q] = ws->run_r + (cx_idx)q * n;
+            if (q >= nruns)
+                memcpy(run_state[q], run_state[j], (size_t)n * sizeof *ws->r);
+            run_y[q] = ws->y + (cx_idx)q * len;
+            run_w[q] = ws->w_out + (cx_idx)g * ws->nfeat * p0->dim;
+        }
+    }
+    for (int j = 0; j < total; j += CX_CELL_BATCH) {
+        int nb = total - j < CX_CELL_BATCH ? total - j : CX_CELL_BATCH;
+        CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, p0->train.dt, ws->horizon, ps.lo, ps.hi,
+                                  &ps.settle, nb, run_state + j, run_y + j, ws->steps_done + j,
+                                  ws->settled_at + j));
+    }
+    /* the block's time, shared out over the cells by their runs (all cells have as many) */
+    const double t_probe = (now() - t0) / (double)(total / nruns);
+    q = 0;
+    for (int g = 0; g < ng; g++) {
+        if (out[g].status != CX_CELL_NOT_DONE)
+            continue;
+        out[g].time.probes = t_probe;
+        CX_TRY(cell_judge(ws, p[g], &res, &ps, run_w[q], run_state + q, run_y + q,
+                          ws->steps_done + q, ws->settled_at + q, &out[g]));
+        q += nruns;
+    }
+finish:
+    /* each cell's total: its own stages plus its share of the group's common time */
+    {
+        const double t_all = now() - t_start;
+        double own = 0.0;
+        for (int g = 0; g < ng; g++)
+            own += out[g].time.network + out[g].time.drive + out[g].time.solve +
+                   out[g].time.probes + out[g].time.classify;
+        for (int g = 0; g < ng; g++)
+            out[g].time.total = out[g].time.network + out[g].time.drive + out[g].time.solve +
+                                out[g].time.probes + out[g].time.classify +
+                                (t_all > own ? (t_all - own) / (double)ng : 0.0);
+    }
+done:
+    return rc;
+}
+
+int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell, cx_cell_result *out)
+{
+    int used = 0;
+    const cx_cell_params *pp[1] = {p};
+    return cx_cell_compute_group(ws, pp, &cell, 1, out, &used);
 }

@@ -63,12 +63,18 @@ struct cx_cell_ws {
     cx_idx rws_n;
     int rws_dim, rws_features;
     /* solve and probes */
-    double *w_out; /* dim x nfeat */
+    double *w_out; /* CX_CELL_GROUP readouts, dim x nfeat each (the first is the last single
+                      cell's, which cx_cell_dump writes) */
     double *work;  /* nfeat^2 + dim * nfeat */
     double *r;     /* n */
     double *y;     /* nruns x (horizon + 1) x dim: every run's outputs */
     double *run_r; /* nruns x n: every run's state (start, then end) */
     cx_idx run_r_cap;
+    /* per run of a group: state and output pointers (2 x cap), readouts, stop steps */
+    double **run_ptr;
+    const double **run_w;
+    cx_idx *steps_done, *settled_at;
+    int run_ptr_cap;
     double *truth; /* (horizon + 1) x dim: a task's true continuation at whole steps */
     cx_idx y_cap;
     cx_class_ws *cws;

@@ -171,6 +171,47 @@ static int fflush_journal(computer *w)
     return cx_journal_flush(w->journal);
 }
 
+/* Journal the encoded record w->record and queue it for the cube. */
+static int record_cell(computer *w)
+{
+    int rc = CX_OK;
+    double t1 = now_mono();
+    CX_TRY(cx_journal_append(w->journal, w->record));
+    /* After a stop request the grace watchdog may end the process at any moment: hand
+     * each record to the operating system as soon as it exists. */
+    if (stop_requested)
+        CX_TRY(cx_journal_flush(w->journal));
+    if (w->journal_only) {
+        w->write_seconds += now_mono() - t1;
+        if (now_mono() - w->last_sync >= w->checkpoint_seconds)
+            CX_TRY(computer_checkpoint(w));
+        return CX_OK;
+    }
+    if (w->lock != NULL)
+        pthread_mutex_lock(w->lock);
+    memcpy(w->pending + (size_t)w->npending * w->rs, w->record, w->rs);
+    w->npending++;
+    int full = w->npending >= PENDING_MAX;
+    if (w->lock != NULL)
+        pthread_mutex_unlock(w->lock);
+    w->write_seconds += now_mono() - t1;
+    if (full && w->cube == NULL) {
+        /* Rank 0's thread waits for the coordinator to drain its records. */
+        for (;;) {
+            pthread_mutex_lock(w->lock);
+            full = w->npending >= PENDING_MAX;
+            pthread_mutex_unlock(w->lock);
+            if (!full)
+                break;
+            nap(POLL_NS);
+        }
+    }
+    if ((w->cube != NULL && full) || now_mono() - w->last_sync >= w->checkpoint_seconds)
+        CX_TRY(computer_checkpoint(w));
+done:
+    return rc;
+}
+
 /* Compute a batch; counts[status] += cells of that status. A stop request (a signal) ends
  * the batch early: the cells not computed stay not done and a rerun computes them.
  * OUT: *ndone. */
@@ -179,49 +220,31 @@ static int compute_batch(computer *w, const int64_t *cells, cx_idx n, int64_t *c
 {
     int rc = CX_OK;
     *ndone = 0;
-    for (cx_idx i = 0; i < n && !stop_requested; i++) {
+    for (cx_idx i = 0; i < n && !stop_requested;) {
+        /* a group of cells that share their closed-loop block, or one cell */
+        int used = 1;
         double t0 = now_mono();
-        CX_TRY(w->ops->compute(w->state, w->study, w->plan, cells[i], w->result));
+        if (w->ops->compute_group != NULL) {
+            int want = n - i < CX_CELL_GROUP ? (int)(n - i) : CX_CELL_GROUP;
+            CX_TRY(w->ops->compute_group(w->state, w->study, w->plan, cells + i, want, w->result,
+                                         &used));
+            CX_REQUIRE(used >= 1 && used <= want, CX_ERR_INVALID,
+                       "engine: a cell group reported %d cells of %d", used, want);
+        } else {
+            CX_TRY(w->ops->compute(w->state, w->study, w->plan, cells[i], w->result));
+        }
         double t1 = now_mono();
         w->compute_seconds += t1 - t0;
-        int s = w->result->status;
-        counts[s >= 0 && s < 8 ? s : 0]++;
-        cx_record_encode(w->result, t1 - t0, now_wall(), w->rank, w->plan->max_runs,
-                         w->plan->max_tasks, w->record);
-        CX_TRY(cx_journal_append(w->journal, w->record));
-        /* After a stop request the grace watchdog may end the process at any moment: hand
-         * each record to the operating system as soon as it exists. */
-        if (stop_requested)
-            CX_TRY(cx_journal_flush(w->journal));
-        if (w->journal_only) {
-            w->write_seconds += now_mono() - t1;
-            if (now_mono() - w->last_sync >= w->checkpoint_seconds)
-                CX_TRY(computer_checkpoint(w));
+        for (int g = 0; g < used; g++, i++) {
+            const cx_cell_result *res = &w->result[g];
+            int s = res->status;
+            counts[s >= 0 && s < 8 ? s : 0]++;
+            /* a group's wall time is shared out evenly over its cells */
+            cx_record_encode(res, (t1 - t0) / (double)used, now_wall(), w->rank, w->plan->max_runs,
+                             w->plan->max_tasks, w->record);
+            CX_TRY(record_cell(w));
             (*ndone)++;
-            continue;
         }
-        if (w->lock != NULL)
-            pthread_mutex_lock(w->lock);
-        memcpy(w->pending + (size_t)w->npending * w->rs, w->record, w->rs);
-        w->npending++;
-        int full = w->npending >= PENDING_MAX;
-        if (w->lock != NULL)
-            pthread_mutex_unlock(w->lock);
-        w->write_seconds += now_mono() - t1;
-        if (full && w->cube == NULL) {
-            /* Rank 0's thread waits for the coordinator to drain its records. */
-            for (;;) {
-                pthread_mutex_lock(w->lock);
-                full = w->npending >= PENDING_MAX;
-                pthread_mutex_unlock(w->lock);
-                if (!full)
-                    break;
-                nap(POLL_NS);
-            }
-        }
-        if ((w->cube != NULL && full) || now_mono() - w->last_sync >= w->checkpoint_seconds)
-            CX_TRY(computer_checkpoint(w));
-        (*ndone)++;
     }
 done:
     return rc;
@@ -241,7 +264,7 @@ static int computer_init(computer *w, const cx_plan *plan, const cx_study *study
     w->checkpoint_seconds = o->checkpoint_seconds;
     w->last_sync = now_mono();
     CX_ALLOC(w->record, w->rs);
-    CX_ALLOC(w->result, 1);
+    CX_ALLOC(w->result, CX_CELL_GROUP);
     CX_ALLOC(w->pending, (size_t)PENDING_MAX * w->rs);
     CX_TRY(ops->create(&w->state));
     CX_TRY(cx_journal_open(jpath, plan->hash, rank, plan->max_runs, plan->max_tasks, &w->journal));

@@ -1,17 +1,19 @@
 /* coexist: several closed-loop runs of one reservoir advanced together.
  *
- * The runs of a cell share M, W_in, b and W_out and differ only in their start states, so B of
- * them are stored as one n x B row-major block X (X[i B + c] = node i of run c) and every RK4
- * stage (Lu, Hunt & Ott 2018, Chaos 28, 061104; see model.c for the stage equations) is one
- * sparse-times-block product: each stored entry M_ij is read once and applied to the B values of
- * node j, which sit side by side; tanh runs over the whole block (tanh.c); the readout W_out q(x)
- * of the B runs is B independent sums. The arithmetic of each run is, operation for operation,
- * that of the single-run kernels (model.c, probe.c): pre-activation b_i + input, then the
- * entries of row i in storage order; the same stage update; the readout summed node by node,
- * linear term then square. So a run's outputs, end state and stop step are bit-identical to
- * cx_res_probe_settle's whatever B and whichever runs share the block. Runs never interact: a
- * column is only ever combined with itself. A run that leaves the bound box or settles drops out
- * and the block is compacted, so stopped runs cost nothing.
+ * The runs of a cell share M, W_in and b, and differ in their start states; runs of several cells
+ * of one work unit (cells that differ only in their readout, say along a blend axis) differ in
+ * W_out as well, so every run carries its own readout. B of them are stored as one n x B row-major
+ * block X (X[i B + c] = node i of run c) and every RK4 stage (Lu, Hunt & Ott 2018, Chaos 28,
+ * 061104; see model.c for the stage equations) is one sparse-times-block product: each stored entry
+ * M_ij is read once and applied to the B values of node j, which sit side by side; tanh runs over
+ * the whole block (tanh.c); the readout W_out q(x) of the B runs is B independent sums, each with
+ * its run's W_out. The arithmetic of each run is, operation for operation, that of the single-run
+ * kernels (model.c, probe.c): pre-activation b_i + input, then the entries of row i in storage
+ * order; the same stage update; the readout summed node by node, linear term then square. So a
+ * run's outputs, end state and stop step are bit-identical to cx_res_probe_settle's whatever B and
+ * whichever runs share the block. Runs never interact: a column is only ever combined with itself.
+ * A run that leaves the bound box or settles drops out and the block is compacted, so stopped runs
+ * cost nothing.
  */
 #include <math.h>
 #include <stdlib.h>
@@ -93,26 +95,26 @@ CX_INLINE void preact_block(const cx_res_ws *restrict ws, const cx_csr *restrict
     }
 }
 
-/* W_out q(x) of the B runs, node by node, linear term then square: readout_add() of model.c.
- * y: nb x dim, zeroed by the caller. */
-CX_INLINE void readout_block(const double *restrict w_out, cx_idx n, const int dim, int features,
+/* W_out q(x) of the B runs, run c with its own w_out[c], node by node, linear term then square:
+ * readout_add() of model.c. y: nb x dim. */
+CX_INLINE void readout_block(const double *const *w_out, cx_idx n, const int dim, int features,
                              const int nb, const double *restrict x, double *restrict y)
 {
     double acc[CX_MAX_RUNS * CX_MAX_DIM];
     for (int q = 0; q < nb * dim; q++)
         acc[q] = 0.0;
     if (features == CX_FEAT_LINEAR) {
-        for (cx_idx i = 0; i < n; i++) {
-            const double *wl = w_out + i * dim;
-            for (int c = 0; c < nb; c++)
+        for (cx_idx i = 0; i < n; i++)
+            for (int c = 0; c < nb; c++) {
+                const double *wl = w_out[c] + i * dim;
                 for (int j = 0; j < dim; j++)
                     acc[c * dim + j] += wl[j] * x[i * nb + c];
-        }
+            }
     } else {
         for (cx_idx i = 0; i < n; i++) {
-            const double *wl = w_out + i * dim;
-            const double *wq = w_out + (n + i) * dim;
             for (int c = 0; c < nb; c++) {
+                const double *wl = w_out[c] + i * dim;
+                const double *wq = w_out[c] + (n + i) * dim;
                 const double v = x[i * nb + c];
                 const double v2 = v * v;
                 for (int j = 0; j < dim; j++)
@@ -192,7 +194,7 @@ static void update_block(const cx_reservoir *restrict res, cx_idx len, int stage
  * every column. u, y: nb x dim. */
 static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restrict res, int nb,
                         int stage, const double *restrict x, const double *restrict u, double c0,
-                        double *restrict acc, double *r, double *xout, const double *restrict w_out,
+                        double *restrict acc, double *r, double *xout, const double *const *w_out,
                         double *restrict y)
 {
     const cx_idx n = ws->n;
@@ -216,11 +218,11 @@ static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restri
     if (features == CX_FEAT_LINEAR_SQUARES_CONSTANT)
         for (int c = 0; c < nb; c++)
             for (int j = 0; j < dim; j++)
-                y[c * dim + j] += w_out[2 * n * dim + j];
+                y[c * dim + j] += w_out[c][2 * n * dim + j];
 }
 
 /* One closed-loop step of the block: cx_res_closed_step() for every column. */
-static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *w_out,
+static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
                               double dt, int nb, double *y)
 {
     double ys[CX_MAX_RUNS * CX_MAX_DIM], yt[CX_MAX_RUNS * CX_MAX_DIM];
@@ -262,8 +264,8 @@ static void compact(double *blk, cx_idx n, int nb, const int *keep)
                 blk[to++] = blk[i * nb + c];
 }
 
-int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_out, double dt,
-                       cx_idx nsteps, const double *lo, const double *hi,
+int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
+                       double dt, cx_idx nsteps, const double *lo, const double *hi,
                        const cx_res_settle *settle, int nruns, double *const *r,
                        double *const *y_out, cx_idx *steps_done, cx_idx *settled_at)
 {
@@ -284,6 +286,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_o
     const int dim = ws->dim;
     const cx_idx window = settle != NULL ? settle->window : 0;
     int run[CX_MAX_RUNS], keep[CX_MAX_RUNS];
+    const double *wcol[CX_MAX_RUNS]; /* the readout of each column of the block */
     cx_idx still[CX_MAX_RUNS];
     double y[CX_MAX_RUNS * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
     int nb = 0;
@@ -291,12 +294,14 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_o
         double yb[CX_MAX_DIM];
         settled_at[b] = -1;
         steps_done[b] = 0;
-        cx_res_readout(res, w_out, r[b], yb);
+        CX_REQUIRE(w_out[b] != NULL, CX_ERR_INVALID, "batch probe: run %d has no readout", b);
+        cx_res_readout(res, w_out[b], r[b], yb);
         if (y_out != NULL && y_out[b] != NULL)
             memcpy(y_out[b], yb, (size_t)dim * sizeof *yb);
         if (outside(yb, dim, lo, hi))
             continue;
         run[nb] = b;
+        wcol[nb] = w_out[b];
         still[nb] = 0;
         memcpy(y + nb * dim, yb, (size_t)dim * sizeof *yb);
         memcpy(yprev + nb * dim, yb, (size_t)dim * sizeof *yb);
@@ -307,7 +312,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_o
         for (cx_idx i = 0; i < n; i++)
             ws->bx[i * width + c] = ws->bprev[i * width + c] = r[run[c]][i];
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, w_out, dt, nb, y);
+        closed_step_block(ws, res, wcol, dt, nb, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
@@ -357,6 +362,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *w_o
                 if (!keep[c])
                     continue;
                 run[to] = run[c];
+                wcol[to] = wcol[c];
                 still[to] = still[c];
                 memcpy(y + to * dim, y + c * dim, (size_t)dim * sizeof *y);
                 memcpy(yprev + to * dim, yprev + c * dim, (size_t)dim * sizeof *y);

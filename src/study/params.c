@@ -17,7 +17,7 @@ static const char *const layout_labels[] = {"one-per-node", "dense", NULL};
 static const char *const feature_labels[] = {"linear-and-squares", "linear",
                                              "linear-squares-constant", NULL};
 static const char *const start_labels[] = {"box", "drive-point", NULL};
-static const char *const tanh_labels[] = {"libm", "vector", NULL};
+static const char *const tanh_labels[] = {"libm", "vector", "expm1", NULL};
 
 #define OFF(field) offsetof(cx_cell_params, field)
 #define REAL(k, f, rule, lo, hi, def, units, cross)                                                \
@@ -59,8 +59,8 @@ static const cx_param table[] = {
     ENUMERATED("reservoir.input_layout", res.input_layout, layout_labels, 0),
     REAL("reservoir.bias", res.bias, CX_R_GE, 0, 0, 0, "1", 0),
     ENUMERATED("reservoir.features", res.features, feature_labels, 0),
-    /* The one enum whose default is not its first label: the vector tanh is the fast one. */
-    {"reservoir.tanh", CX_PT_ENUM, CX_PS_INT, OFF(res.tanh_mode), CX_R_ANY, 0, 0, 1, 0, tanh_labels,
+    /* The one enum whose default is not its first label: our own tanh is the fastest. */
+    {"reservoir.tanh", CX_PT_ENUM, CX_PS_INT, OFF(res.tanh_mode), CX_R_ANY, 0, 0, 2, 0, tanh_labels,
      "1", 0},
     REAL("training.dt", train.dt, CX_R_GT, 0, 0, 0.01, "time units", 1),
     REAL("training.washout", train.washout, CX_R_GE, 0, 0, 20, "time units", 1),
