@@ -315,7 +315,8 @@ typedef struct toy {
     double *wout2; /* a second readout (W_out scaled by 0.93): runs of another cell */
 } toy;
 
-static int toy_make(toy *t, cx_idx n, int dim, double scale, uint64_t seed)
+/* dense_in: every entry of W_in non-zero (else one per node) */
+static int toy_make(toy *t, cx_idx n, int dim, double scale, uint64_t seed, int dense_in)
 {
     const int deg = 3;
     cx_rng rng;
@@ -324,8 +325,8 @@ static int toy_make(toy *t, cx_idx n, int dim, double scale, uint64_t seed)
     t->col = malloc((size_t)(n * deg) * sizeof *t->col);
     t->val = malloc((size_t)(n * deg) * sizeof *t->val);
     t->win = calloc((size_t)(n * dim), sizeof *t->win);
-    t->wout = malloc((size_t)(2 * n * dim) * sizeof *t->wout);
-    t->wout2 = malloc((size_t)(2 * n * dim) * sizeof *t->wout2);
+    t->wout = malloc((size_t)((2 * n + 1) * dim) * sizeof *t->wout);
+    t->wout2 = malloc((size_t)((2 * n + 1) * dim) * sizeof *t->wout2);
     if (!t->rowptr || !t->col || !t->val || !t->win || !t->wout || !t->wout2)
         return 0;
     for (cx_idx i = 0; i <= n; i++)
@@ -335,10 +336,12 @@ static int toy_make(toy *t, cx_idx n, int dim, double scale, uint64_t seed)
         t->val[p] = cx_rng_range(&rng, -scale, scale);
     }
     for (cx_idx i = 0; i < n; i++)
-        t->win[i * dim + i % dim] = cx_rng_range(&rng, -1.0, 1.0);
-    for (cx_idx i = 0; i < 2 * n * dim; i++)
+        for (int j = 0; j < dim; j++)
+            if (dense_in || j == i % dim)
+                t->win[i * dim + j] = cx_rng_range(&rng, -1.0, 1.0);
+    for (cx_idx i = 0; i < (2 * n + 1) * dim; i++)
         t->wout[i] = cx_rng_range(&rng, -2.0, 2.0) / (double)n;
-    for (cx_idx i = 0; i < 2 * n * dim; i++)
+    for (cx_idx i = 0; i < (2 * n + 1) * dim; i++)
         t->wout2[i] = 0.93 * t->wout[i];
     t->m.n = n;
     t->m.nnz = n * deg;
@@ -364,19 +367,27 @@ static void toy_free(toy *t)
 static void test_batch(void)
 {
     const cx_idx n = 90, steps = 700;
-    const int dim = 2, maxb = 8;
+    const int maxb = 8;
     int same = 1, cases = 0;
     int64_t left = 0, settled = 0, full = 0;
     for (int model = 0; model < 2; model++) {
-        for (int active = 0; active < 2; active++) {
+        for (int active = 0; active < 4; active++) {
+            /* active & 1: a strong network (runs leave the box) or a weak one (runs settle);
+             * active & 2: our own tanh, which takes the fused kernel (fused.c) where the CPU has
+             * AVX2, against the scalar kernels of one run at a time; then also the other feature
+             * maps, and with active = 3 a dense W_in and three outputs */
+            const int dim = active == 3 ? 3 : 2;
+            const int feat = active & 2 ? (model ? CX_FEAT_LINEAR : CX_FEAT_LINEAR_SQUARES_CONSTANT)
+                                        : CX_FEAT_LINEAR_SQUARES;
             toy t;
             cx_res_ws *ws = NULL;
             double *r1 = malloc((size_t)(n * maxb) * sizeof *r1);
             double *r2 = malloc((size_t)(n * maxb) * sizeof *r2);
             double *y1 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y1);
             double *y2 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y2);
-            if (!toy_make(&t, n, dim, active ? 1.4 : 0.25, 3301 + (uint64_t)(2 * model + active)) ||
-                !r1 || !r2 || !y1 || !y2 || cx_res_ws_alloc(&ws, n, dim, 0) != CX_OK ||
+            if (!toy_make(&t, n, dim, active & 1 ? 1.4 : 0.25,
+                          3301 + (uint64_t)(2 * model + (active & 1)), active == 3) ||
+                !r1 || !r2 || !y1 || !y2 || cx_res_ws_alloc(&ws, n, dim, feat) != CX_OK ||
                 cx_res_ws_set_batch(ws, maxb) != CX_OK) {
                 same = 0;
                 goto next;
@@ -385,14 +396,15 @@ static void test_batch(void)
             res.n = n;
             res.dim = dim;
             res.model = model;
-            res.features = CX_FEAT_LINEAR_SQUARES;
+            res.features = feat;
             res.rate = 4.3;
             res.leak = 0.37;
             res.input_scaling = 0.6;
-            res.tanh_mode = active ? CX_TANH_VECTOR : CX_TANH_LIBM;
+            res.tanh_mode =
+                active & 2 ? CX_TANH_EXPM1 : (active & 1 ? CX_TANH_VECTOR : CX_TANH_LIBM);
             res.m = &t.m;
             res.w_in = t.win;
-            const double lo[2] = {-0.16, -0.16}, hi[2] = {0.16, 0.16};
+            const double lo[3] = {-0.16, -0.16, -0.16}, hi[3] = {0.16, 0.16, 0.16};
             const cx_res_settle settle = {25, 1e-11, 1e-12};
             for (int nb = 1; nb <= maxb; nb++) {
                 cx_rng rng;
@@ -443,8 +455,9 @@ static void test_batch(void)
     snprintf(d, sizeof d, "%d cases; runs: %lld left the box, %lld settled, %lld full horizon",
              cases, (long long)left, (long long)settled, (long long)full);
     cx_test_true("batched probe == one run at a time, bit for bit (outputs, states, stop steps), "
-                 "B = 1..8, both models, two readouts in one block",
-                 same && cases == 32, d, SRC_OURS);
+                 "B = 1..8, both models, three tanh, three feature maps, one-per-node and dense "
+                 "W_in, 2 and 3 outputs, two readouts in one block",
+                 same && cases == 64, d, SRC_OURS);
     cx_test_true("batched probe check covers runs that leave, settle and run the whole horizon",
                  left > 0 && settled > 0 && full > 0, d, SRC_OURS);
 }

@@ -22,33 +22,45 @@
 #include "coexist/error.h"
 #include "reservoir/reservoir_impl.h"
 
+/* Columns allocated for a batch of nb runs: room for the fused kernel's padding to a multiple
+ * of 4 (fused.c). */
+static int padded(int nb)
+{
+    return (nb + 3) / 4 * 4;
+}
+
 int cx_res_ws_set_batch(cx_res_ws *ws, int nb)
 {
     int rc = CX_OK;
-    double *blk[6] = {NULL, NULL, NULL, NULL, NULL, NULL};
+    double *blk[7] = {NULL, NULL, NULL, NULL, NULL, NULL, NULL};
     CX_REQUIRE(ws != NULL && nb >= 1 && nb <= CX_MAX_RUNS, CX_ERR_INVALID,
                "batch of %d runs outside 1..%d", nb, CX_MAX_RUNS);
     if (nb <= ws->batch_cap)
         return CX_OK;
+    const cx_idx w = padded(nb);
     for (int k = 0; k < 6; k++)
-        CX_CALLOC(blk[k], ws->n * nb);
+        CX_CALLOC(blk[k], ws->n * w);
+    /* packed readouts: n x 2 x dim x w, and the constants dim x w */
+    CX_CALLOC(blk[6], (2 * ws->n + 1) * ws->dim * w);
     free(ws->bx);
     free(ws->bprev);
     free(ws->bxa);
     free(ws->bxb);
     free(ws->bacc);
     free(ws->bpre);
+    free(ws->bpack);
     ws->bx = blk[0];
     ws->bprev = blk[1];
     ws->bxa = blk[2];
     ws->bxb = blk[3];
     ws->bacc = blk[4];
     ws->bpre = blk[5];
+    ws->bpack = blk[6];
     ws->batch_cap = nb;
-    for (int k = 0; k < 6; k++)
+    for (int k = 0; k < 7; k++)
         blk[k] = NULL;
 done:
-    for (int k = 5; k >= 0; k--)
+    for (int k = 6; k >= 0; k--)
         free(blk[k]);
     return rc;
 }
@@ -221,23 +233,33 @@ static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restri
                 y[c * dim + j] += w_out[c][2 * n * dim + j];
 }
 
-/* One closed-loop step of the block: cx_res_closed_step() for every column. */
+/* One closed-loop step of the block: cx_res_closed_step() for every column. With `fused` the
+ * block is w columns wide (a multiple of 4, fused.c) and the readouts are packed in ws->bpack. */
 static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                              double dt, int nb, double *y)
+                              double dt, int nb, int fused, double *y)
 {
     double ys[CX_MAX_RUNS * CX_MAX_DIM], yt[CX_MAX_RUNS * CX_MAX_DIM];
     double *r = ws->bx;
+    const double *pack = ws->bpack, *pconst = ws->bpack + 2 * ws->n * ws->dim * nb;
+#define CX_STAGE(st, x, u, c0, acc, rr, xout, yout)                                                \
+    do {                                                                                           \
+        if (fused)                                                                                 \
+            cx_res_stage_fused(ws, res, nb, st, x, u, c0, acc, rr, xout, pack, pconst, yout);      \
+        else                                                                                       \
+            stage_block(ws, res, nb, st, x, u, c0, acc, rr, xout, w_out, yout);                    \
+    } while (0)
     if (res->model == CX_MODEL_DISCRETE) {
-        stage_block(ws, res, nb, 0, r, y, 0.0, NULL, NULL, ws->bxa, w_out, ys);
+        CX_STAGE(0, r, y, 0.0, NULL, NULL, ws->bxa, ys);
         memcpy(r, ws->bxa, (size_t)(ws->n * nb) * sizeof *r);
         memcpy(y, ys, (size_t)(nb * ws->dim) * sizeof *y);
         return;
     }
     const double h2 = 0.5 * dt, h6 = dt / 6.0;
-    stage_block(ws, res, nb, 1, r, y, h2, ws->bacc, r, ws->bxa, w_out, ys);
-    stage_block(ws, res, nb, 2, ws->bxa, ys, h2, ws->bacc, r, ws->bxb, w_out, yt);
-    stage_block(ws, res, nb, 3, ws->bxb, yt, dt, ws->bacc, r, ws->bxa, w_out, ys);
-    stage_block(ws, res, nb, 4, ws->bxa, ys, h6, ws->bacc, r, r, w_out, y);
+    CX_STAGE(1, r, y, h2, ws->bacc, r, ws->bxa, ys);
+    CX_STAGE(2, ws->bxa, ys, h2, ws->bacc, r, ws->bxb, yt);
+    CX_STAGE(3, ws->bxb, yt, dt, ws->bacc, r, ws->bxa, ys);
+    CX_STAGE(4, ws->bxa, ys, h6, ws->bacc, r, r, y);
+#undef CX_STAGE
 }
 
 static int outside(const double *y, int dim, const double *lo, const double *hi)
@@ -253,15 +275,28 @@ static int outside(const double *y, int dim, const double *lo, const double *hi)
     return 0;
 }
 
-/* Drop the columns with keep[c] == 0 from an n x nb block, in place (row-major: every value
- * moves to a lower or equal index, so a forward copy is safe). */
-static void compact(double *blk, cx_idx n, int nb, const int *keep)
+/* Keep the columns c < nb_old with keep[c] != 0 of an n x w_old block and lay them out w_new
+ * wide (w_new <= w_old), the columns past the kept ones filled with copies of the first kept
+ * column (the fused kernel's padding: computed, never reported). Row by row through a copy of
+ * the row, so the shrinking layout never overwrites a value still to be read. */
+static void relayout(double *blk, cx_idx n, int w_old, int nb_old, const int *keep, int w_new)
 {
-    cx_idx to = 0;
-    for (cx_idx i = 0; i < n; i++)
-        for (int c = 0; c < nb; c++)
+    double row[CX_MAX_RUNS + 4];
+    for (cx_idx i = 0; i < n; i++) {
+        memcpy(row, blk + i * w_old, (size_t)w_old * sizeof *row);
+        int to = 0;
+        for (int c = 0; c < nb_old; c++)
             if (keep[c])
-                blk[to++] = blk[i * nb + c];
+                blk[i * w_new + to++] = row[c];
+        for (int c = to; c < w_new; c++)
+            blk[i * w_new + c] = blk[i * w_new];
+    }
+}
+
+/* The block width for nb live runs: padded to 4 or 8 for the fused kernel, else nb. */
+static int block_width(int fused, int nb)
+{
+    return fused ? padded(nb) : nb;
 }
 
 int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
@@ -285,10 +320,13 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     const cx_idx n = ws->n;
     const int dim = ws->dim;
     const cx_idx window = settle != NULL ? settle->window : 0;
-    int run[CX_MAX_RUNS], keep[CX_MAX_RUNS];
-    const double *wcol[CX_MAX_RUNS]; /* the readout of each column of the block */
+    /* the fused kernel takes blocks of 4 or 8 columns; for one or two runs the padding would
+     * cost more than it saves (measured: about 1.4x slower for one run, even for two) */
+    const int fused = cx_res_fused_ok(res) && nruns >= 3 && nruns <= 8;
+    int run[CX_MAX_RUNS + 4], keep[CX_MAX_RUNS + 4];
+    const double *wcol[CX_MAX_RUNS + 4]; /* the readout of each column of the block */
     cx_idx still[CX_MAX_RUNS];
-    double y[CX_MAX_RUNS * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
+    double y[(CX_MAX_RUNS + 4) * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
     int nb = 0;
     for (int b = 0; b < nruns; b++) {
         double yb[CX_MAX_DIM];
@@ -307,12 +345,21 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
         memcpy(yprev + nb * dim, yb, (size_t)dim * sizeof *yb);
         nb++;
     }
-    const int width = nb;
-    for (int c = 0; c < width; c++)
+    /* w: the block's width, nb live columns then copies of column 0 */
+    int w = nb > 0 ? block_width(fused, nb) : 0;
+    for (int c = 0; c < w; c++) {
+        const int from = c < nb ? c : 0;
         for (cx_idx i = 0; i < n; i++)
-            ws->bx[i * width + c] = ws->bprev[i * width + c] = r[run[c]][i];
+            ws->bx[i * w + c] = ws->bprev[i * w + c] = r[run[from]][i];
+        if (c >= nb) {
+            wcol[c] = wcol[0];
+            memcpy(y + c * dim, y, (size_t)dim * sizeof *y);
+        }
+    }
+    if (fused && nb > 0)
+        cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, ws->bpack + 2 * n * dim * w);
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, wcol, dt, nb, y);
+        closed_step_block(ws, res, wcol, dt, w, fused, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
@@ -326,9 +373,9 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             } else if (window > 0) {
                 double dr = 0.0, dy = 0.0;
                 for (cx_idx k = 0; k < n; k++) {
-                    const double e = fabs(ws->bx[k * nb + c] - ws->bprev[k * nb + c]);
+                    const double e = fabs(ws->bx[k * w + c] - ws->bprev[k * w + c]);
                     dr = e > dr ? e : dr;
-                    ws->bprev[k * nb + c] = ws->bx[k * nb + c];
+                    ws->bprev[k * w + c] = ws->bx[k * w + c];
                 }
                 for (int j = 0; j < dim; j++) {
                     const double e = fabs(yc[j] - yprev[c * dim + j]);
@@ -349,14 +396,15 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                 steps_done[b] = nsteps;
             if (!keep[c]) {
                 for (cx_idx k = 0; k < n; k++)
-                    r[b][k] = ws->bx[k * nb + c];
+                    r[b][k] = ws->bx[k * w + c];
                 stopped++;
             }
         }
         if (stopped > 0 && stopped < nb) {
             const int nb_new = nb - stopped;
-            compact(ws->bx, n, nb, keep);
-            compact(ws->bprev, n, nb, keep);
+            const int w_new = block_width(fused, nb_new);
+            relayout(ws->bx, n, w, nb, keep, w_new);
+            relayout(ws->bprev, n, w, nb, keep, w_new);
             int to = 0;
             for (int c = 0; c < nb; c++) {
                 if (!keep[c])
@@ -368,7 +416,15 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                 memcpy(yprev + to * dim, yprev + c * dim, (size_t)dim * sizeof *y);
                 to++;
             }
+            for (int c = nb_new; c < w_new; c++) {
+                wcol[c] = wcol[0];
+                memcpy(y + c * dim, y, (size_t)dim * sizeof *y);
+            }
             nb = nb_new;
+            w = w_new;
+            if (fused)
+                cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack,
+                                     ws->bpack + 2 * n * dim * w);
         } else if (stopped == nb) {
             nb = 0;
         }
@@ -376,7 +432,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     for (int c = 0; c < nb; c++) {
         steps_done[run[c]] = nsteps;
         for (cx_idx k = 0; k < n; k++)
-            r[run[c]][k] = ws->bx[k * nb + c];
+            r[run[c]][k] = ws->bx[k * w + c];
     }
 done:
     return rc;

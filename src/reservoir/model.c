@@ -108,6 +108,7 @@ void cx_res_ws_free(cx_res_ws **pws)
     if (pws == NULL || *pws == NULL)
         return;
     cx_res_ws *ws = *pws;
+    free(ws->bpack);
     free(ws->bpre);
     free(ws->bacc);
     free(ws->bxb);

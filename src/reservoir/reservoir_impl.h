@@ -39,6 +39,7 @@ struct cx_res_ws {
     double *bxb;
     double *bacc;
     double *bpre;
+    double *bpack; /* the columns' readouts packed node by node for the fused kernel (fused.c) */
 };
 
 /* Check that `res` fits the workspace and build the input tables. */
@@ -46,6 +47,17 @@ int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
 
 /* x_i <- tanh(x_i), i < n, the way `mode` (enum cx_tanh) says; see tanh.c. */
 void cx_res_tanh(int mode, double *x, cx_idx n);
+
+/* The fused closed-loop block kernel (fused.c): usable when the tanh is our own and the CPU has
+ * AVX2 + FMA. cx_res_pack_readouts lays out the readouts of w columns for it (pack: 2 n dim w
+ * doubles, then pconst: dim w); cx_res_stage_fused is stage_block() of batch.c for a block w = 4
+ * or 8 columns wide, with the same bits. */
+int cx_res_fused_ok(const cx_reservoir *res);
+void cx_res_pack_readouts(cx_idx n, int dim, int features, int w, const double *const *w_out,
+                          double *pack, double *pconst);
+void cx_res_stage_fused(const cx_res_ws *ws, const cx_reservoir *res, int w, int stage,
+                        const double *x, const double *u, double c0, double *acc, double *r,
+                        double *xout, const double *pack, const double *pconst, double *y);
 
 /* q(r) into q (nfeat). */
 void cx_res_features_of(const cx_res_ws *ws, const double *r, double *q /* out */);

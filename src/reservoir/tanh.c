@@ -27,6 +27,7 @@
 #include <string.h>
 
 #include "reservoir/reservoir_impl.h"
+#include "reservoir/tanh_expm1.h"
 
 /* --- Our own tanh (CX_TANH_EXPM1) -------------------------------------------------------------
  * Written because SLEEF's fast variant was still most of the cost of a closed-loop step, and a
@@ -46,25 +47,19 @@
  * value's tanh depends neither on its position nor on the array length. Measured error: at most
  * 3 ULP against the correctly rounded value (long double tanhl) and 4 ULP against glibc's tanh
  * (tests/test_speed.c checks <= 4 against libm over the whole range). */
-#define OWN_CLAMP   20.0
-#define OWN_LN2_HI  6.93147180369123816490e-01 /* fdlibm's ln2_hi: 32 significant bits */
-#define OWN_LN2_LO  1.90821492927058770002e-10 /* ln2 - ln2_hi */
-#define OWN_INV_LN2 0x1.71547652b82fep+0
-#define OWN_ROUND   0x1.8p52 /* adding it rounds a double of magnitude < 2^51 to an integer */
-static const double own_c[12] = {1.0 / 2.0,        1.0 / 6.0,         1.0 / 24.0,
-                                 1.0 / 120.0,      1.0 / 720.0,       1.0 / 5040.0,
-                                 1.0 / 40320.0,    1.0 / 362880.0,    1.0 / 3628800.0,
-                                 1.0 / 39916800.0, 1.0 / 479001600.0, 1.0 / 6227020800.0};
+static const double own_c[12] = {CX_TANH_C0, CX_TANH_C1, CX_TANH_C2,  CX_TANH_C3,
+                                 CX_TANH_C4, CX_TANH_C5, CX_TANH_C6,  CX_TANH_C7,
+                                 CX_TANH_C8, CX_TANH_C9, CX_TANH_C10, CX_TANH_C11};
 
 static double own_tanh1(double x)
 {
     double a = fabs(x);
-    a = OWN_CLAMP < a ? OWN_CLAMP : a; /* as _mm256_min_pd(clamp, a): NaN stays NaN */
+    a = CX_TANH_CLAMP < a ? CX_TANH_CLAMP : a; /* as _mm256_min_pd(clamp, a): NaN stays NaN */
     const double t = a + a;
-    const double kb = fma(t, OWN_INV_LN2, OWN_ROUND);
-    const double k = kb - OWN_ROUND;
-    double r = fma(-k, OWN_LN2_HI, t);
-    r = fma(-k, OWN_LN2_LO, r);
+    const double kb = fma(t, CX_TANH_INV_LN2, CX_TANH_ROUND);
+    const double k = kb - CX_TANH_ROUND;
+    double r = fma(-k, CX_TANH_LN2_HI, t);
+    r = fma(-k, CX_TANH_LN2_LO, r);
     double q = own_c[11];
     for (int j = 10; j >= 0; j--)
         q = fma(q, r, own_c[j]);
@@ -136,30 +131,19 @@ static void tanh_sse(double *x, cx_idx n)
 
 __attribute__((target("avx2,fma"))) static void own_avx2(double *x, cx_idx n)
 {
-    const __m256d sign = _mm256_set1_pd(-0.0);
-    const __m256d rnd = _mm256_set1_pd(OWN_ROUND);
     cx_idx i = 0;
+    for (; i + 16 <= n; i += 16) {
+        __m256d v[4];
+        for (int k = 0; k < 4; k++)
+            v[k] = _mm256_loadu_pd(x + i + 4 * k);
+        cx_tanh_expm1_avx2_k(v, 4);
+        for (int k = 0; k < 4; k++)
+            _mm256_storeu_pd(x + i + 4 * k, v[k]);
+    }
     for (; i + 4 <= n; i += 4) {
-        const __m256d v = _mm256_loadu_pd(x + i);
-        const __m256d a = _mm256_min_pd(_mm256_set1_pd(OWN_CLAMP), _mm256_andnot_pd(sign, v));
-        const __m256d t = _mm256_add_pd(a, a);
-        const __m256d kb = _mm256_fmadd_pd(t, _mm256_set1_pd(OWN_INV_LN2), rnd);
-        const __m256d k = _mm256_sub_pd(kb, rnd);
-        __m256d r = _mm256_fnmadd_pd(k, _mm256_set1_pd(OWN_LN2_HI), t);
-        r = _mm256_fnmadd_pd(k, _mm256_set1_pd(OWN_LN2_LO), r);
-        __m256d q = _mm256_set1_pd(own_c[11]);
-        for (int j = 10; j >= 0; j--)
-            q = _mm256_fmadd_pd(q, r, _mm256_set1_pd(own_c[j]));
-        const __m256d p = _mm256_fmadd_pd(q, _mm256_mul_pd(r, r), r);
-        const __m256i kbits = _mm256_castpd_si256(kb);
-        const __m256i sbits = _mm256_slli_epi64(
-            _mm256_add_epi64(_mm256_sub_epi64(kbits, _mm256_set1_epi64x(0x4338000000000000LL)),
-                             _mm256_set1_epi64x(1023)),
-            52);
-        const __m256d s = _mm256_castsi256_pd(sbits);
-        const __m256d e = _mm256_fmadd_pd(s, p, _mm256_sub_pd(s, _mm256_set1_pd(1.0)));
-        const __m256d y = _mm256_div_pd(e, _mm256_add_pd(e, _mm256_set1_pd(2.0)));
-        _mm256_storeu_pd(x + i, _mm256_or_pd(y, _mm256_and_pd(v, sign)));
+        __m256d v = _mm256_loadu_pd(x + i);
+        cx_tanh_expm1_avx2_k(&v, 1);
+        _mm256_storeu_pd(x + i, v);
     }
     own_portable(x + i, n - i); /* the same operations, so the same bits */
 }
