@@ -3,16 +3,20 @@
 
 Needs a build with CX_FAULT_INJECTION defined (and, for the leak and UB checks, -DCX_SANITIZE=ON):
 there CX_FAIL_ALLOC=N fails the Nth allocation made through cx_malloc_array / cx_calloc_array
-(src/core/error.c; the idea of SQLite's test_malloc.c, Hipp et al., sqlite.org). For N = 1, 2,
-... until a command makes fewer than N allocations and succeeds:
+(src/core/error.c; the idea of SQLite's test_malloc.c, Hipp et al., sqlite.org), and
+CX_FAIL_H5WRITE=N fails the Nth HDF5 write of a cube (a dataset or attribute write or a flush,
+src/engine/cube.c) as if HDF5 had refused it. For N = 1, 2, ... until a command makes fewer than
+N allocations (or writes) and succeeds:
  - `coexist check tests/sweeps/robust_tiny.yaml` (no MPI) with LeakSanitizer on: exit 1, an
    out-of-memory message, no ASan / LSan / UBSan report;
  - `coexist run` of it (MPI singleton, leak checking off: Open MPI's unloaded plugins leak at
    exit where LSan cannot name them): exit 1 with an out-of-memory message and no ASan/UBSan
    report, then the cube it left (if any) must open (`coexist status`) and a rerun without
-   injection must complete with result datasets byte-identical to an uninterrupted run.
+   injection must complete with result datasets byte-identical to an uninterrupted run;
+ - `coexist run` with the Nth HDF5 write failing: exit 1 with an HDF5 message naming the cube
+   and no ASan/UBSan report, a cube (if one was left) that opens, and a rerun that completes
+   with result datasets byte-identical to an uninterrupted run.
 N runs over 1..40 (or 60) and is then sampled with a stride, to fit the shared machine.
-Not covered: failing the Nth HDF5 write (no hook for it exists yet).
 
 References outside the program: the exit codes of README "Commands", the reproducibility
 contract of DESIGN.md, and the sanitizer reports of clang/gcc's ASan runtime.
@@ -37,7 +41,7 @@ STRIDE = int(os.environ.get("CX_FAULT_STRIDE", "0"))
 check = engine_cli.check
 
 
-def run(args, fail_at=None, leaks=False):
+def run(args, fail_at=None, leaks=False, write_fail_at=None):
     # Leak checking only without MPI: Open MPI's plugins leak at exit from libraries they have
     # already unloaded, so LeakSanitizer cannot attribute (or suppress) those reports.
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1",
@@ -45,8 +49,11 @@ def run(args, fail_at=None, leaks=False):
                LSAN_OPTIONS="suppressions=%s:print_suppressions=0" % SUPP,
                UBSAN_OPTIONS="print_stacktrace=1")
     env.pop("CX_FAIL_ALLOC", None)
+    env.pop("CX_FAIL_H5WRITE", None)
     if fail_at is not None:
         env["CX_FAIL_ALLOC"] = str(fail_at)
+    if write_fail_at is not None:
+        env["CX_FAIL_H5WRITE"] = str(write_fail_at)
     p = subprocess.run([BIN] + args, capture_output=True, text=True, timeout=120, env=env)
     return p.returncode, p.stdout + p.stderr
 
@@ -117,6 +124,38 @@ def phase_run(wd, ref):
           "stopped at N = %d" % n, "test set-up")
 
 
+def phase_h5write(wd, ref):
+    """coexist run with the Nth HDF5 write failing: exit 1 with an HDF5 message, a cube that
+    opens (when one was left) and a resume identical to the reference."""
+    cube = os.path.join(wd, "h5fault.h5")
+    bad = 0
+    n = 0
+    for n in schedule(60, STRIDE or 5, MAX_N):
+        remove_cube(cube)
+        rc, log = run(["run", SWEEP, "-o", cube], write_fail_at=n)
+        if rc == 0:
+            break  # the run made fewer than n writes
+        reports = [s for s in SANITIZER if s in log]
+        clean = rc == 1 and "HDF5:" in log and "failed for" in log and not reports
+        status_rc = run(["status", cube])[0] if os.path.exists(cube) else 0
+        rrc, rlog = run(["run", SWEEP, "-o", cube])
+        differ = engine_cli.same_results(ref, cube) if rrc == 0 else ["(rerun failed)"]
+        if not (clean and status_rc == 0 and rrc == 0 and not differ):
+            bad += 1
+            last = " | ".join(log.strip().splitlines()[-2:])[:240]
+            check("run: HDF5 write %d fails: exit 1 with an HDF5 message, cube opens and resumes"
+                  % n, False, "exit %d, sanitizer %s, status exit %d, rerun exit %d, differing "
+                  "%s: %s | rerun: %s" % (rc, reports, status_rc, rrc, differ, last,
+                                          rlog.strip()[-200:]),
+                  "README Commands: 1 = machine failure; DESIGN.md reproducibility")
+    check("run: failing HDF5 writes 1..%d (%s) give a clean error, an openable cube and an "
+          "identical resume" % (n, "every one" if STRIDE == 1 else "sampled after 60"),
+          bad == 0 and n > 1, "%d bad" % bad,
+          "README Commands; DESIGN.md reproducibility; ASan/UBSan silent")
+    check("run: the write injection reached a run that needs fewer writes", n < MAX_N,
+          "stopped at N = %d" % n, "test set-up")
+
+
 def main():
     wd = sys.argv[1]
     os.makedirs(wd, exist_ok=True)
@@ -131,6 +170,7 @@ def main():
         return 1
     phase_check(wd)
     phase_run(wd, ref)
+    phase_h5write(wd, ref)
     c = engine_cli.counts
     print("%d passed, %d failed" % (c["passed"], c["failed"]))
     return 0 if c["failed"] == 0 else 1

@@ -101,6 +101,8 @@ const char *cx_status_name(int code);
 
 /* Allocation goes through these two so that a fault-injection build can fail the Nth one.
  * Both check n * size for overflow and return NULL for it. Free with free(). */
+/* 1 when this HDF5 write is to fail (a fault-injection build, CX_FAIL_H5WRITE=N), else 0. */
+int cx_fault_hdf5_write(void);
 void *cx_malloc_array(size_t n, size_t size);
 void *cx_calloc_array(size_t n, size_t size);
 

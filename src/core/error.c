@@ -136,6 +136,27 @@ static int alloc_should_fail(void)
 }
 #endif
 
+/* Fault injection of HDF5 writes: CX_FAIL_H5WRITE=N makes the Nth write of a cube (a dataset
+ * or attribute write, or a flush; src/engine/cube.c) fail as if HDF5 had refused it. */
+#ifdef CX_FAULT_INJECTION
+int cx_fault_hdf5_write(void)
+{
+    static long count, fail_at = -1;
+    static int checked;
+    if (!checked) {
+        const char *e = getenv("CX_FAIL_H5WRITE");
+        fail_at = e ? strtol(e, NULL, 10) : -1;
+        checked = 1;
+    }
+    return ++count == fail_at;
+}
+#else
+int cx_fault_hdf5_write(void)
+{
+    return 0;
+}
+#endif
+
 void *cx_malloc_array(size_t n, size_t size)
 {
     if (n == 0 || size == 0)

@@ -116,6 +116,10 @@ static int h5fail(const char *what, const char *path)
     return CX_FAIL(CX_ERR_HDF5, "HDF5: %s failed for %s", what, path);
 }
 
+/* Every write of a cube goes through H5W, where a fault-injection build can make it fail
+ * (cx_fault_hdf5_write, src/core/error.c). */
+#define H5W(fn, ...) (cx_fault_hdf5_write() ? (herr_t)-1 : fn(__VA_ARGS__))
+
 #define CX_H5(expr, what)                                                                          \
     do {                                                                                           \
         if ((expr) < 0)                                                                            \
@@ -226,7 +230,8 @@ static int put_string_attr(hid_t obj, const char *name, const char *value, const
     if (H5Aexists(obj, name) > 0)
         CX_H5(H5Adelete(obj, name), "H5Adelete");
     CX_H5(a = H5Acreate2(obj, name, t, sp, H5P_DEFAULT, H5P_DEFAULT), name);
-    CX_H5(H5Awrite(a, t, len > 0 ? value : " "), name);
+    if (H5W(H5Awrite, a, t, len > 0 ? value : " ") < 0)
+        CX_RAISE(CX_ERR_HDF5, "HDF5: writing attribute %s failed for %s", name, path);
 done:
     if (a >= 0)
         H5Aclose(a);
@@ -248,7 +253,8 @@ static int put_num_attr(hid_t obj, const char *name, hid_t ftype, hid_t mtype, c
     } else {
         CX_H5(a = H5Acreate2(obj, name, ftype, sp, H5P_DEFAULT, H5P_DEFAULT), name);
     }
-    CX_H5(H5Awrite(a, mtype, v), name);
+    if (H5W(H5Awrite, a, mtype, v) < 0)
+        CX_RAISE(CX_ERR_HDF5, "HDF5: writing attribute %s failed for %s", name, path);
 done:
     if (a >= 0)
         H5Aclose(a);
@@ -332,7 +338,8 @@ static int make_scale(hid_t file, const char *name, hid_t ftype, hid_t mtype, co
     hid_t sp = -1, d = -1;
     CX_H5(sp = H5Screate_simple(1, &len, NULL), "H5Screate_simple");
     CX_H5(d = H5Dcreate2(file, name, ftype, sp, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT), name);
-    CX_H5(H5Dwrite(d, mtype, H5S_ALL, H5S_ALL, H5P_DEFAULT, values), name);
+    if (H5W(H5Dwrite, d, mtype, H5S_ALL, H5S_ALL, H5P_DEFAULT, values) < 0)
+        CX_RAISE(CX_ERR_HDF5, "HDF5: writing dataset %s failed for %s", name, path);
     CX_H5(H5DSset_scale(d, name), "H5DSset_scale");
     CX_TRY(put_string_attr(d, "units", units, path));
     CX_TRY(put_string_attr(d, "description", description, path));
@@ -611,7 +618,7 @@ int cx_cube_create(const char *path, const cx_plan *p, int ranks, double start_t
     made = 1;
     CX_TRY(write_root_attrs(file, p, ranks, start_time, path));
     CX_TRY(create_layout(file, p, path));
-    CX_H5(H5Fflush(file, H5F_SCOPE_GLOBAL), "H5Fflush");
+    CX_H5(H5W(H5Fflush, file, H5F_SCOPE_GLOBAL), "flushing");
     CX_H5(H5Fclose(file), "H5Fclose");
     file = -1;
     {
@@ -953,7 +960,8 @@ int cx_cube_write_records(cx_cube *c, const unsigned char *records, cx_idx n)
         }
         hsize_t total = (hsize_t)m * (hsize_t)nr * (hsize_t)nt;
         CX_H5(msp = H5Screate_simple(1, &total, NULL), "H5Screate_simple");
-        CX_H5(H5Dwrite(c->dset[v], mem_type(c, vd->type), msp, fsp, H5P_DEFAULT, buf), vd->name);
+        if (H5W(H5Dwrite, c->dset[v], mem_type(c, vd->type), msp, fsp, H5P_DEFAULT, buf) < 0)
+            CX_RAISE(CX_ERR_HDF5, "HDF5: writing dataset %s failed for %s", vd->name, path);
         H5Sclose(msp);
         msp = -1;
         H5Sclose(fsp);
@@ -993,7 +1001,7 @@ int cx_cube_finish(cx_cube *c, const cx_cube_final *f)
     CX_TRY(put_string_attr(c->file, "start_time", when, path));
     iso_time(f->end_time, when, sizeof when);
     CX_TRY(put_string_attr(c->file, "end_time", when, path));
-    CX_H5(H5Fflush(c->file, H5F_SCOPE_GLOBAL), "H5Fflush");
+    CX_H5(H5W(H5Fflush, c->file, H5F_SCOPE_GLOBAL), "flushing");
 done:
     return rc;
 }
