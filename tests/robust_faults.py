@@ -92,67 +92,43 @@ def phase_check(wd):
           "README Commands; ASan/LSan/UBSan silent")
 
 
-def phase_run(wd, ref):
-    """coexist run (MPI singleton; leak checking off, see below): exit 1 with out of memory, a
-    cube that opens, and a resume identical to the reference."""
-    cube = os.path.join(wd, "faulty.h5")
+def inject_runs(wd, ref, what, kind, first, stride, expect):
+    """coexist run with the Nth `kind` failing (kind = "alloc": CX_FAIL_ALLOC, "write":
+    CX_FAIL_H5WRITE) for N = 1..first, then every stride-th, until a run needs fewer than N:
+    each must exit 1 with a message containing every string of `expect` and no ASan/UBSan
+    report (leak checking off, see run()), leave a cube that opens (when it left one), and
+    resume to result datasets identical to the reference."""
+    cube = os.path.join(wd, "faulty-%s.h5" % kind)
     bad = 0
     n = 0
-    for n in schedule(40, STRIDE or 37, MAX_N):
+    for n in schedule(first, STRIDE or stride, MAX_N):
         remove_cube(cube)
-        rc, log = run(["run", SWEEP, "-o", cube], fail_at=n)
+        if kind == "alloc":
+            rc, log = run(["run", SWEEP, "-o", cube], fail_at=n)
+        else:
+            rc, log = run(["run", SWEEP, "-o", cube], write_fail_at=n)
         if rc == 0:
-            break  # the run made fewer than n allocations
+            break  # the run made fewer than n allocations (writes)
         reports = [s for s in SANITIZER if s in log]
-        clean = rc == 1 and "out of memory" in log and not reports
+        clean = rc == 1 and all(e in log for e in expect) and not reports
         status_rc = run(["status", cube])[0] if os.path.exists(cube) else 0
         rrc, rlog = run(["run", SWEEP, "-o", cube])
         differ = engine_cli.same_results(ref, cube) if rrc == 0 else ["(rerun failed)"]
         if not (clean and status_rc == 0 and rrc == 0 and not differ):
             bad += 1
             last = " | ".join(log.strip().splitlines()[-2:])[:240]
-            check("run: allocation %d fails: exit 1 with out of memory, cube opens and resumes"
-                  % n, False, "exit %d, sanitizer %s, status exit %d, rerun exit %d, differing "
-                  "%s: %s" % (rc, reports, status_rc, rrc, differ, last),
+            check("run: %s %d fails: exit 1 with %s, cube opens and resumes" % (what, n, expect),
+                  False, "exit %d, sanitizer %s, status exit %d, rerun exit %d, differing %s: %s"
+                  " | rerun: %s" % (rc, reports, status_rc, rrc, differ, last,
+                                    rlog.strip()[-200:]),
                   "README Commands: 1 = machine failure; DESIGN.md reproducibility")
             if reports:
                 print("\n".join(l for l in log.splitlines() if l.strip())[:4000])
-    check("run: failing allocations 1..%d (%s) give a clean error, an openable cube and an "
-          "identical resume" % (n, "every one" if STRIDE == 1 else "sampled after 40"), bad == 0 and n > 1, "%d bad" % bad,
-          "README Commands; DESIGN.md reproducibility; ASan/UBSan silent")
-    check("run: the injection sweep reached a run that needs fewer allocations", n < MAX_N,
-          "stopped at N = %d" % n, "test set-up")
-
-
-def phase_h5write(wd, ref):
-    """coexist run with the Nth HDF5 write failing: exit 1 with an HDF5 message, a cube that
-    opens (when one was left) and a resume identical to the reference."""
-    cube = os.path.join(wd, "h5fault.h5")
-    bad = 0
-    n = 0
-    for n in schedule(60, STRIDE or 5, MAX_N):
-        remove_cube(cube)
-        rc, log = run(["run", SWEEP, "-o", cube], write_fail_at=n)
-        if rc == 0:
-            break  # the run made fewer than n writes
-        reports = [s for s in SANITIZER if s in log]
-        clean = rc == 1 and "HDF5:" in log and "failed for" in log and not reports
-        status_rc = run(["status", cube])[0] if os.path.exists(cube) else 0
-        rrc, rlog = run(["run", SWEEP, "-o", cube])
-        differ = engine_cli.same_results(ref, cube) if rrc == 0 else ["(rerun failed)"]
-        if not (clean and status_rc == 0 and rrc == 0 and not differ):
-            bad += 1
-            last = " | ".join(log.strip().splitlines()[-2:])[:240]
-            check("run: HDF5 write %d fails: exit 1 with an HDF5 message, cube opens and resumes"
-                  % n, False, "exit %d, sanitizer %s, status exit %d, rerun exit %d, differing "
-                  "%s: %s | rerun: %s" % (rc, reports, status_rc, rrc, differ, last,
-                                          rlog.strip()[-200:]),
-                  "README Commands: 1 = machine failure; DESIGN.md reproducibility")
-    check("run: failing HDF5 writes 1..%d (%s) give a clean error, an openable cube and an "
-          "identical resume" % (n, "every one" if STRIDE == 1 else "sampled after 60"),
+    check("run: failing %ss 1..%d (%s) give a clean error, an openable cube and an identical "
+          "resume" % (what, n, "every one" if STRIDE == 1 else "sampled after %d" % first),
           bad == 0 and n > 1, "%d bad" % bad,
           "README Commands; DESIGN.md reproducibility; ASan/UBSan silent")
-    check("run: the write injection reached a run that needs fewer writes", n < MAX_N,
+    check("run: the %s injection reached a run that needs fewer" % what, n < MAX_N,
           "stopped at N = %d" % n, "test set-up")
 
 
@@ -169,8 +145,8 @@ def main():
         print(log[-3000:])
         return 1
     phase_check(wd)
-    phase_run(wd, ref)
-    phase_h5write(wd, ref)
+    inject_runs(wd, ref, "allocation", "alloc", 40, 37, ["out of memory"])
+    inject_runs(wd, ref, "HDF5 write", "write", 60, 5, ["HDF5:", "failed for"])
     c = engine_cli.counts
     print("%d passed, %d failed" % (c["passed"], c["failed"]))
     return 0 if c["failed"] == 0 else 1

@@ -9,10 +9,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 
 #include <lapacke.h>
 
+#include "coexist/clock.h"
 #include "coexist/error.h"
 #include "coexist/net.h"
 #include "testlib.h"
@@ -20,13 +20,6 @@
 #define SRC_LAPACK                                                                                 \
     "LAPACK 3.11 dgeev (Anderson et al., LAPACK Users' Guide, SIAM 1999), called directly on the " \
     "full dense matrix"
-
-static double now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
 
 static cx_net_params er(cx_idx n, double d, int law, double a)
 {
@@ -57,14 +50,14 @@ static double radius(const cx_csr *m, int method, double *seconds)
     cx_rng r;
     const uint64_t key[1] = {(uint64_t)m->nnz};
     cx_rng_keyed(&r, 2385u, CX_RNG_TEST, key, 1);
-    double rho = NAN, t0 = now();
+    double rho = NAN, t0 = cx_clock_mono();
     if (cx_net_spectral_radius(m, method, &r, &rho) != CX_OK) {
         cx_err_print("test_net", 1);
         cx_err_clear();
         rho = NAN;
     }
     if (seconds != NULL)
-        *seconds = now() - t0;
+        *seconds = cx_clock_mono() - t0;
     return rho;
 }
 

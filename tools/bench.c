@@ -28,8 +28,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 
+#include "coexist/clock.h"
 #include "coexist/cell.h"
 #include "coexist/error.h"
 #include "coexist/reservoir.h"
@@ -41,21 +41,6 @@
 #ifndef CX_SOURCE_DIR
 #define CX_SOURCE_DIR "."
 #endif
-
-static double now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-/* CPU seconds of this process (one BLAS thread): what a core-second means on a shared machine. */
-static double cpu_now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 /* The two tasks and fixed settings of the benchmark sweep (our own scenario). */
 static const char *const sweep_fmt =
@@ -130,12 +115,12 @@ static double time_tanh(int mode, double *x, const double *src, cx_idx n, int re
 {
     double best = INFINITY;
     for (int rep = 0; rep < 5; rep++) {
-        double t0 = now();
+        double t0 = cx_clock_mono();
         for (int k = 0; k < reps; k++) {
             memcpy(x, src, (size_t)n * sizeof *x);
             cx_res_tanh(mode, x, n);
         }
-        double t = (now() - t0) / ((double)reps * (double)n);
+        double t = (cx_clock_mono() - t0) / ((double)reps * (double)n);
         best = t < best ? t : best;
     }
     return 1e9 * best;
@@ -151,10 +136,10 @@ static double gflops_dgemm(void)
         for (int i = 0; i < n * n; i++)
             a[i] = b[i] = 1e-3 * (double)(i % 977);
         for (int rep = 0; rep < 3; rep++) {
-            double t0 = now();
+            double t0 = cx_clock_mono();
             cblas_dgemm(CblasColMajor, CblasNoTrans, CblasNoTrans, n, n, n, 1.0, a, n, b, n, 0.0, c,
                         n);
-            double g = 2.0 * n * (double)n * n / (now() - t0) * 1e-9;
+            double g = 2.0 * n * (double)n * n / (cx_clock_mono() - t0) * 1e-9;
             best = g > best ? g : best;
         }
     }
@@ -173,11 +158,11 @@ static double gflops_dsyrk(int nf, int k, int reps)
         for (long i = 0; i < (long)nf * k; i++)
             q[i] = 1e-3 * (double)(i % 991);
         for (int rep = 0; rep < 3; rep++) {
-            double t0 = now();
+            double t0 = cx_clock_mono();
             for (int r = 0; r < reps; r++)
                 cblas_dsyrk(CblasColMajor, CblasUpper, CblasNoTrans, nf, k, 1.0, q, nf, 1.0, g, nf);
             double flops = (double)reps * (double)nf * (nf + 1.0) * k;
-            double gf = flops / (now() - t0) * 1e-9;
+            double gf = flops / (cx_clock_mono() - t0) * 1e-9;
             best = gf > best ? gf : best;
         }
     }
@@ -235,13 +220,13 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         for (int rep = 0; rep < 3; rep++) {
             for (cx_idx i = 0; i < n; i++)
                 r[i] = 0.0;
-            double t0 = now();
+            double t0 = cx_clock_mono();
             CX_TRY(cx_res_drive(ws, &res, u, 0.01, steps, 0, 1, r, NULL, NULL));
-            bd = fmin(bd, (now() - t0) * per);
+            bd = fmin(bd, (cx_clock_mono() - t0) * per);
             cx_idx done_steps = 0;
-            t0 = now();
+            t0 = cx_clock_mono();
             CX_TRY(cx_res_probe(ws, &res, wout, 0.01, steps, NULL, NULL, r, NULL, &done_steps));
-            bp = fmin(bp, (now() - t0) * per);
+            bp = fmin(bp, (cx_clock_mono() - t0) * per);
         }
         kf->drive[mode] = bd;
         kf->probe[mode] = bp;
@@ -263,11 +248,11 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
                     for (cx_idx i = 0; i < n; i++)
                         rs[b][i] = 0.01 * (double)((i * 7 + b) % 13);
                 }
-                double t0 = now();
+                double t0 = cx_clock_mono();
                 const double *wo[8] = {wout, wout, wout, wout, wout, wout, wout, wout};
                 rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, NULL, NULL, bs[q], rs,
                                         NULL, sd, sa);
-                best = fmin(best, (now() - t0) * per / (double)bs[q]);
+                best = fmin(best, (cx_clock_mono() - t0) * per / (double)bs[q]);
                 if (rc != CX_OK)
                     break;
             }
@@ -377,7 +362,8 @@ static int run_sweep(const cx_study *s, int group, sweep_figs *sf, int *labels,
     cx_cell_result rg[CX_CELL_GROUP];
     CX_TRY(cx_cell_ws_create(&ws));
     sf->cells = cx_study_cells(s);
-    double t0 = now(), c0 = cpu_now();
+    /* process CPU time (one BLAS thread) is what a core-second means on a shared machine */
+    double t0 = cx_clock_mono(), c0 = cx_clock_cpu();
     for (cx_idx first = 0; first < sf->cells;) {
         const cx_cell_params *pp[CX_CELL_GROUP];
         cx_idx ids[CX_CELL_GROUP];
@@ -392,8 +378,8 @@ static int run_sweep(const cx_study *s, int group, sweep_figs *sf, int *labels,
             account(&p[g], &rg[g], first + g, sf, labels, cell_seconds);
         first += used;
     }
-    sf->total = now() - t0;
-    sf->cpu = cpu_now() - c0;
+    sf->total = cx_clock_mono() - t0;
+    sf->cpu = cx_clock_cpu() - c0;
     sf->gram_gflops /= sf->gram;
     sf->settled = cx_cell_ws_settled(ws);
 done:

@@ -17,8 +17,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 
+#include "coexist/clock.h"
 #include "coexist/cell.h"
 #include "coexist/error.h"
 #include "coexist/rng.h"
@@ -29,13 +29,6 @@
  * pass over M among several runs, few enough that the n x B blocks stay in the outer caches.
  * Results do not depend on it (bit for bit). */
 #define CX_CELL_BATCH 8
-
-static double now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 const char *cx_cell_status_name(int status)
 {
@@ -311,11 +304,11 @@ static int stage_drive(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservo
         CX_CALLOC(ws->r_end[k], n);
     }
     CX_ALLOC(ws->work, nf * nf + nf * dim);
-    double t0 = now(), g0 = cx_res_ws_gram_seconds(ws->rws);
+    double t0 = cx_clock_mono(), g0 = cx_res_ws_gram_seconds(ws->rws);
     for (int k = 0; k < p->ntasks; k++)
         CX_TRY(cx_res_drive(ws->rws, res, ws->series[k], p->train.dt, ws->wash, ws->train,
                             p->train.stride, ws->r_end[k], ws->g[k], ws->c[k]));
-    t->drive = now() - t0;
+    t->drive = cx_clock_mono() - t0;
     t->gram = cx_res_ws_gram_seconds(ws->rws) - g0;
     ws->nfeat = nf;
     ws->features = p->res.features;
@@ -498,14 +491,14 @@ static int cell_solve(cx_cell_ws *ws, const cx_cell_params *p, cx_cell_result *r
                       int slot)
 {
     int rc = CX_OK;
-    double t0 = now();
+    double t0 = cx_clock_mono();
     CX_REQUIRE(p->ntasks >= 1 && p->ntasks <= CX_MAX_TASKS, CX_ERR_INVALID,
                "a cell needs 1 to %d tasks, got %d", CX_MAX_TASKS, p->ntasks);
     CX_REQUIRE(r->nruns <= CX_MAX_RUNS, CX_ERR_INVALID, "a cell has at most %d runs, got %d",
                CX_MAX_RUNS, r->nruns);
     CX_TRY(stage_network(ws, p));
     CX_TRY(stage_input(ws, p));
-    r->time.network = now() - t0;
+    r->time.network = cx_clock_mono() - t0;
     r->rho_unscaled = ws->rho0;
     CX_TRY(stage_series(ws, p));
     CX_TRY(ensure_res_ws(ws, p));
@@ -515,7 +508,7 @@ static int cell_solve(cx_cell_ws *ws, const cx_cell_params *p, cx_cell_result *r
     double *w_out = ws->w_out + (cx_idx)slot * ws->nfeat * p->dim;
 
     /* Stage 4: the blended readout (into readout slot `slot`). */
-    t0 = now();
+    t0 = cx_clock_mono();
     double w[CX_MAX_TASKS];
     const double *g[CX_MAX_TASKS], *c[CX_MAX_TASKS];
     blend_weights(p, w);
@@ -527,7 +520,7 @@ static int cell_solve(cx_cell_ws *ws, const cx_cell_params *p, cx_cell_result *r
     CX_TRY(cx_readout_solve(ws->nfeat, p->dim, p->ntasks, g, c, w, p->train.ridge, ws->work, w_out,
                             &solve_status));
     ws->counts.solves++;
-    r->time.solve = now() - t0;
+    r->time.solve = cx_clock_mono() - t0;
     if (solve_status != CX_SOLVE_OK) {
         r->status =
             solve_status == CX_SOLVE_NOT_PD ? CX_CELL_FAILED_NOT_PD : CX_CELL_FAILED_NONFINITE;
@@ -593,7 +586,7 @@ static int cell_judge(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoi
         ws->counts.probes++;
         if (settled_at[j] >= 0)
             ws->settled++;
-        double t0 = now();
+        double t0 = cx_clock_mono();
         cx_idx n_total = steps_done[j] + 1;
         cx_idx tail = ps->n_tail < n_total ? ps->n_tail : n_total;
         const double *tr = NULL;
@@ -616,7 +609,7 @@ static int cell_judge(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoi
                                    cx_cell_steps(p->probe.lyapunov_time, p->train.dt), 1e-8, &rng,
                                    run_state[j], &m->lyapunov));
         }
-        r->time.classify += now() - t0;
+        r->time.classify += cx_clock_mono() - t0;
         if (ws->keep) {
             memcpy(ws->kept_y + (cx_idx)j * len, run_y[j],
                    (size_t)(n_total * p->dim) * sizeof *ws->y);
@@ -640,7 +633,7 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
                           int k, cx_cell_result *out, int *used)
 {
     int rc = CX_OK;
-    double t_start = now();
+    double t_start = cx_clock_mono();
     cx_reservoir res;
     CX_REQUIRE(k >= 1 && p != NULL && cells != NULL && out != NULL && used != NULL, CX_ERR_INVALID,
                "cell group: %d cells or a NULL argument", k);
@@ -672,7 +665,7 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
     probe_setup_of(ws, p0, &ps);
     const cx_idx n = p0->net.nodes;
     const cx_idx len = (ws->horizon + 1) * p0->dim;
-    double t0 = now();
+    double t0 = cx_clock_mono();
     double **run_state = ws->run_ptr, **run_y = ws->run_ptr + total;
     const double **run_w = ws->run_w;
     for (int j = 0; j < nruns; j++) {
@@ -700,7 +693,7 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
                                   ws->settled_at + j));
     }
     /* the block's time, shared out over the cells by their runs (all cells have as many) */
-    const double t_probe = (now() - t0) / (double)(total / nruns);
+    const double t_probe = (cx_clock_mono() - t0) / (double)(total / nruns);
     q = 0;
     for (int g = 0; g < ng; g++) {
         if (out[g].status != CX_CELL_NOT_DONE)
@@ -713,7 +706,7 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
 finish:
     /* each cell's total: its own stages plus its share of the group's common time */
     {
-        const double t_all = now() - t_start;
+        const double t_all = cx_clock_mono() - t_start;
         double own = 0.0;
         for (int g = 0; g < ng; g++)
             own += out[g].time.network + out[g].time.drive + out[g].time.solve +

@@ -12,6 +12,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "coexist/clock.h"
 #include "coexist/cell.h"
 #include "coexist/engine.h"
 #include "coexist/error.h"
@@ -201,11 +202,9 @@ int cx_cmd_status(int argc, char **argv)
         if (span > 0) {
             double rate = (double)(ctx.ntimes - 1 - first) / span;
             double left = (double)(sum.ncells - done) / rate;
-            struct timespec now;
-            clock_gettime(CLOCK_REALTIME, &now);
             printf("rate: %.4g cells/s over the last %.0f s of records (last record %.0f s "
                    "ago); time left at that rate: %.0f s\n",
-                   rate, span, (double)now.tv_sec - last, left);
+                   rate, span, cx_clock_wall() - last, left);
         }
     } else if (done < sum.ncells) {
         printf("rate: unknown (too few journal records)\n");

@@ -44,6 +44,7 @@
 
 #include <mpi.h>
 
+#include "coexist/clock.h"
 #include "coexist/engine.h"
 #include "coexist/error.h"
 
@@ -75,27 +76,6 @@ void cx_engine_opts_default(cx_engine_opts *o)
     o->flop_rate = CX_ASSUMED_FLOP_RATE;
     o->blas_threads = 1;
     o->grace_seconds = 60.0;
-}
-
-static double now_wall(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_REALTIME, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-static double now_mono(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-static double thread_cpu(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
 
 static void nap(long ns)
@@ -154,13 +134,13 @@ typedef struct computer {
 static int computer_checkpoint(computer *w)
 {
     int rc = CX_OK;
-    double t0 = now_mono();
+    double t0 = cx_clock_mono();
     CX_TRY(cx_journal_sync(w->journal));
     if (w->cube != NULL) {
         CX_TRY(cx_cube_write_records(w->cube, w->pending, w->npending));
         w->npending = 0;
     }
-    w->last_sync = now_mono();
+    w->last_sync = cx_clock_mono();
     w->write_seconds += w->last_sync - t0;
 done:
     return rc;
@@ -175,15 +155,15 @@ static int fflush_journal(computer *w)
 static int record_cell(computer *w)
 {
     int rc = CX_OK;
-    double t1 = now_mono();
+    double t1 = cx_clock_mono();
     CX_TRY(cx_journal_append(w->journal, w->record));
     /* After a stop request the grace watchdog may end the process at any moment: hand
      * each record to the operating system as soon as it exists. */
     if (stop_requested)
         CX_TRY(cx_journal_flush(w->journal));
     if (w->journal_only) {
-        w->write_seconds += now_mono() - t1;
-        if (now_mono() - w->last_sync >= w->checkpoint_seconds)
+        w->write_seconds += cx_clock_mono() - t1;
+        if (cx_clock_mono() - w->last_sync >= w->checkpoint_seconds)
             CX_TRY(computer_checkpoint(w));
         return CX_OK;
     }
@@ -194,7 +174,7 @@ static int record_cell(computer *w)
     int full = w->npending >= PENDING_MAX;
     if (w->lock != NULL)
         pthread_mutex_unlock(w->lock);
-    w->write_seconds += now_mono() - t1;
+    w->write_seconds += cx_clock_mono() - t1;
     if (full && w->cube == NULL) {
         /* Rank 0's thread waits for the coordinator to drain its records. */
         for (;;) {
@@ -206,7 +186,7 @@ static int record_cell(computer *w)
             nap(POLL_NS);
         }
     }
-    if ((w->cube != NULL && full) || now_mono() - w->last_sync >= w->checkpoint_seconds)
+    if ((w->cube != NULL && full) || cx_clock_mono() - w->last_sync >= w->checkpoint_seconds)
         CX_TRY(computer_checkpoint(w));
 done:
     return rc;
@@ -223,7 +203,7 @@ static int compute_batch(computer *w, const int64_t *cells, cx_idx n, int64_t *c
     for (cx_idx i = 0; i < n && !stop_requested;) {
         /* a group of cells that share their closed-loop block, or one cell */
         int used = 1;
-        double t0 = now_mono();
+        double t0 = cx_clock_mono();
         if (w->ops->compute_group != NULL) {
             int want = n - i < CX_CELL_GROUP ? (int)(n - i) : CX_CELL_GROUP;
             CX_TRY(w->ops->compute_group(w->state, w->study, w->plan, cells + i, want, w->result,
@@ -233,15 +213,15 @@ static int compute_batch(computer *w, const int64_t *cells, cx_idx n, int64_t *c
         } else {
             CX_TRY(w->ops->compute(w->state, w->study, w->plan, cells[i], w->result));
         }
-        double t1 = now_mono();
+        double t1 = cx_clock_mono();
         w->compute_seconds += t1 - t0;
         for (int g = 0; g < used; g++, i++) {
             const cx_cell_result *res = &w->result[g];
             int s = res->status;
             counts[s >= 0 && s < 8 ? s : 0]++;
             /* a group's wall time is shared out evenly over its cells */
-            cx_record_encode(res, (t1 - t0) / (double)used, now_wall(), w->rank, w->plan->max_runs,
-                             w->plan->max_tasks, w->record);
+            cx_record_encode(res, (t1 - t0) / (double)used, cx_clock_wall(), w->rank,
+                             w->plan->max_runs, w->plan->max_tasks, w->record);
             CX_TRY(record_cell(w));
             (*ndone)++;
         }
@@ -262,7 +242,7 @@ static int computer_init(computer *w, const cx_plan *plan, const cx_study *study
     w->rank = rank;
     w->rs = cx_record_size(plan->max_runs, plan->max_tasks);
     w->checkpoint_seconds = o->checkpoint_seconds;
-    w->last_sync = now_mono();
+    w->last_sync = cx_clock_mono();
     CX_ALLOC(w->record, w->rs);
     CX_ALLOC(w->result, CX_CELL_GROUP);
     CX_ALLOC(w->pending, (size_t)PENDING_MAX * w->rs);
@@ -494,7 +474,7 @@ static int coordinate(coord *c, const cx_engine_opts *o, cx_cube *cube, double *
     int64_t ack[DONE_LEN];
     MPI_Request req = MPI_REQUEST_NULL;
     MPI_Status status;
-    double t0 = now_mono(), last_print = t0, last_ckpt = t0;
+    double t0 = cx_clock_mono(), last_print = t0, last_ckpt = t0;
     int tty = isatty(fileno(stderr)) && !o->quiet;
     unsigned char *drain = NULL;
     size_t rs = c->computes ? c->lw->comp.rs : 0;
@@ -535,7 +515,7 @@ static int coordinate(coord *c, const cx_engine_opts *o, cx_cube *cube, double *
                 CX_TRY(handle_ack(c, 0, local[k]));
             busy |= na > 0;
         }
-        double t = now_mono();
+        double t = cx_clock_mono();
         if (c->computes) {
             cx_idx n = 0;
             pthread_mutex_lock(&c->lw->lock);
@@ -548,9 +528,9 @@ static int coordinate(coord *c, const cx_engine_opts *o, cx_cube *cube, double *
             }
             pthread_mutex_unlock(&c->lw->lock);
             if (n > 0 && cube != NULL) {
-                double w0 = now_mono();
+                double w0 = cx_clock_mono();
                 CX_TRY(cx_cube_write_records(cube, drain, n));
-                *write_seconds += now_mono() - w0;
+                *write_seconds += cx_clock_mono() - w0;
             }
         }
         if (!o->quiet && t - last_print >= (tty ? 0.5 : o->progress_seconds)) {
@@ -567,7 +547,7 @@ static int coordinate(coord *c, const cx_engine_opts *o, cx_cube *cube, double *
         }
     }
     if (!o->quiet)
-        progress(c, now_mono() - t0, tty, 1);
+        progress(c, cx_clock_mono() - t0, tty, 1);
 done:
     if (req != MPI_REQUEST_NULL) {
         MPI_Cancel(&req);
@@ -876,14 +856,14 @@ static void *watchdog_main(void *arg)
         if (quit)
             break;
         if (stop_requested && since < 0) {
-            since = now_mono();
+            since = cx_clock_mono();
             if (wd->rank == 0)
                 fprintf(stderr,
                         "coexist: stop requested: no more work is handed out; cells being "
                         "computed have %.0f s to finish\n",
                         wd->grace);
         }
-        if (since >= 0 && now_mono() - since > wd->grace) {
+        if (since >= 0 && cx_clock_mono() - since > wd->grace) {
             fprintf(stderr,
                     "coexist: rank %d: cells still computing %.0f s after the stop request are "
                     "left not done; exiting with status 3\n",
@@ -905,7 +885,7 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     int wd_started = 0, wd_init = 0;
     memset(&wd, 0, sizeof wd);
     int rc = CX_OK, rank = 0, size = 1, created = 0, computes = 0;
-    double start = now_wall();
+    double start = cx_clock_wall();
     cx_cube *cube = NULL;
     uint8_t *done = NULL;
     cx_units *units = NULL;
@@ -1013,7 +993,7 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
     wd_init = 1;
     if (!o->merge_only && pthread_create(&wd.thread, NULL, watchdog_main, &wd) == 0)
         wd_started = 1;
-    double t_run = now_mono(), cpu0 = thread_cpu();
+    double t_run = cx_clock_mono(), cpu0 = cx_clock_thread_cpu();
     int run_rc = CX_OK;
     if (rank == 0) {
         c.comm = comm;
@@ -1096,8 +1076,8 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
         if (run_rc == CX_OK)
             run_rc = computer_checkpoint(&comp);
     }
-    st->wall = now_mono() - t_run;
-    st->rank0_cpu = thread_cpu() - cpu0;
+    st->wall = cx_clock_mono() - t_run;
+    st->rank0_cpu = cx_clock_thread_cpu() - cpu0;
     if (wd_started) {
         pthread_mutex_lock(&wd.lock);
         wd.quit = 1;
@@ -1142,7 +1122,7 @@ int cx_engine_run(MPI_Comm comm, const cx_plan *plan, const cx_study *s, const c
         st->complete = (int)fin[1];
         goto done;
     }
-    double end = now_wall();
+    double end = cx_clock_wall();
     MPI_TRY(MPI_Bcast(&end, 1, MPI_DOUBLE, 0, comm));
     MPI_TRY(MPI_Bcast(&start, 1, MPI_DOUBLE, 0, comm));
     cx_cube_final f = {size, start, end, st->counts, fin[0], (int)fin[1]};

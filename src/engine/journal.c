@@ -22,6 +22,7 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "coexist/clock.h"
 #include "coexist/engine.h"
 #include "coexist/error.h"
 
@@ -52,9 +53,7 @@ static void header_encode(unsigned char *h, uint64_t hash, int rank, size_t reco
     memcpy(h + 28, &mr, 4);
     memcpy(h + 32, &mt, 4);
     memcpy(h + 36, &bom, 4);
-    struct timespec ts;
-    clock_gettime(CLOCK_REALTIME, &ts);
-    double now = (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+    double now = cx_clock_wall();
     memcpy(h + 40, &now, 8);
     uint32_t crc = cx_crc32c(0, h, 60);
     memcpy(h + 60, &crc, 4);

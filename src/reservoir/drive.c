@@ -9,8 +9,8 @@
  */
 #include <cblas.h>
 #include <string.h>
-#include <time.h>
 
+#include "coexist/clock.h"
 #include "coexist/error.h"
 #include "reservoir/reservoir_impl.h"
 
@@ -19,25 +19,18 @@ static int fits_blasint(cx_idx v)
     return v >= 0 && (cx_idx)(blasint)v == v;
 }
 
-static double now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
 /* Fold the first `cnt` buffered columns into g and c; the time it takes is added to the
  * workspace's Gram clock (two clock reads per block of samples: negligible). */
 static void gram_flush(cx_res_ws *ws, cx_idx cnt, double *g, double *c)
 {
     if (cnt == 0)
         return;
-    double t0 = now();
+    double t0 = cx_clock_mono();
     const blasint nf = (blasint)ws->nfeat, k = (blasint)cnt, d = (blasint)ws->dim;
     cblas_dsyrk(CblasColMajor, CblasUpper, CblasNoTrans, nf, k, 1.0, ws->qblk, nf, 1.0, g, nf);
     cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, d, nf, k, 1.0, ws->ublk, d, ws->qblk, nf,
                 1.0, c, d);
-    ws->gram_seconds += now() - t0;
+    ws->gram_seconds += cx_clock_mono() - t0;
 }
 
 double cx_res_ws_gram_seconds(const cx_res_ws *ws)
