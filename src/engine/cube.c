@@ -96,8 +96,8 @@ static const var_def vars[] = {
      "Frobenius norm of the readout block on the squared states"},
     {"done", SHAPE_CELL, TY_U8, "1", "1 when the cell's result is in this file"},
     {"wall_time", SHAPE_CELL, TY_F64, "s",
-     "wall-clock seconds to compute the cell on its rank; not a result (depends on the machine "
-     "and the schedule)"},
+     "wall-clock seconds to compute the cell on its rank (cells computed as one group share the "
+     "group's time evenly); not a result (depends on the machine and the schedule)"},
 };
 #define NVARS ((int)(sizeof vars / sizeof vars[0]))
 
