@@ -15,3 +15,9 @@ add_test(NAME test_cli
     WORKING_DIRECTORY ${CMAKE_CURRENT_BINARY_DIR})
 set_tests_properties(test_cli PROPERTIES LABELS "unit" TIMEOUT 300
     ENVIRONMENT "OPENBLAS_NUM_THREADS=1")
+
+# The README's demo command, with the build under test.
+add_test(NAME demo_script
+    COMMAND sh ${CMAKE_CURRENT_SOURCE_DIR}/check_demo.sh ${CMAKE_SOURCE_DIR} ${CMAKE_BINARY_DIR}
+    WORKING_DIRECTORY ${CMAKE_CURRENT_BINARY_DIR})
+set_tests_properties(demo_script PROPERTIES LABELS "unit" TIMEOUT 300)
