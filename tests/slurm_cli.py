@@ -222,7 +222,7 @@ def local(wd):
               CONTRACT)
     # coexist jobs: memory from the estimate, and a warning when the estimate does not fit.
     rc, chk = sh([BIN, "check", SLOW])
-    m = re.search(r"memory: at most ([\d.]+) MiB per cell", chk)
+    m = re.search(r"memory: at most ([\d.]+) MiB per rank", chk)
     path = os.path.join(wd, "warn.sh")
     rc, out = sh([BIN, "jobs", SLOW, "-o", path, "--time", "00:00:10", "--tasks-per-node", "2"])
     text = open(path).read() if os.path.exists(path) else ""

@@ -199,13 +199,18 @@ double cx_cell_memory_bytes(const cx_cell_params *p)
                             cx_cell_steps(p->train.length, p->train.dt) +
                             cx_cell_steps(p->probe.horizon, p->train.dt));
     double dense_eig = n <= 1500 ? 8.0 * n * n * 2.0 : 0.0;
+    /* a workspace computes up to CX_CELL_GROUP cells that differ only in their readout at once
+     * (cx_cell_compute_group): their readouts, run states and outputs are held together */
+    const double group = CX_CELL_GROUP;
+    const double runs = (double)(p->ntasks + p->probe.random_starts);
     return 8.0 * (tasks * (nf * nf + nf * dim) /* G_k, C_k */
                   + nf * nf + nf * dim         /* solve workspace */
+                  + group * nf * dim           /* the group's readouts */
                   + tasks * 2.0 * steps * dim  /* task signals */
-                  + (double)(p->ntasks + p->probe.random_starts) *
-                        ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
-                        dim  /* every run's outputs (batched probes) */
-                  + 48.0 * n /* the probe batch blocks */
+                  + group * runs * ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
+                        dim                           /* every run's outputs */
+                  + group * runs * n                  /* every run's state */
+                  + 8.0 * (6.0 + 2.0 * dim + 1.0) * n /* the block of up to 8 runs, packed W_out */
                   + 24.0 * n + 2.0 * nnz) +
            dense_eig;
 }
