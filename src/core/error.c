@@ -113,44 +113,46 @@ const char *cx_status_name(int code)
     }
 }
 
-/* Fault injection: when the environment variable CX_FAIL_ALLOC=N is set in a build with
- * CX_FAULT_INJECTION defined, the Nth allocation fails (SQLite's test_malloc idea). */
+/* Fault injection, in a build with CX_FAULT_INJECTION defined (SQLite's test_malloc idea):
+ * CX_FAIL_ALLOC=N fails the Nth allocation; CX_FAIL_H5WRITE=N makes the Nth write of a cube (a
+ * dataset or attribute write, or a flush; src/engine/cube.c) fail as if HDF5 had refused it. */
 #ifdef CX_FAULT_INJECTION
-static long alloc_count;
-static long alloc_fail_at = -1;
-static int alloc_fail_checked;
+typedef struct fault_counter {
+    const char *var; /* the environment variable that names N */
+    long count;
+    long fail_at; /* -1: never */
+    int checked;
+} fault_counter;
+
+/* 1 when this event is the Nth of its kind. */
+static int fault_hit(fault_counter *f)
+{
+    if (!f->checked) {
+        const char *e = getenv(f->var);
+        f->fail_at = e ? strtol(e, NULL, 10) : -1;
+        f->checked = 1;
+    }
+    return ++f->count == f->fail_at;
+}
+
+static fault_counter alloc_faults = {"CX_FAIL_ALLOC", 0, -1, 0};
+static fault_counter write_faults = {"CX_FAIL_H5WRITE", 0, -1, 0};
 
 static int alloc_should_fail(void)
 {
-    if (!alloc_fail_checked) {
-        const char *e = getenv("CX_FAIL_ALLOC");
-        alloc_fail_at = e ? strtol(e, NULL, 10) : -1;
-        alloc_fail_checked = 1;
-    }
-    return ++alloc_count == alloc_fail_at;
+    return fault_hit(&alloc_faults);
+}
+
+int cx_fault_hdf5_write(void)
+{
+    return fault_hit(&write_faults);
 }
 #else
 static int alloc_should_fail(void)
 {
     return 0;
 }
-#endif
 
-/* Fault injection of HDF5 writes: CX_FAIL_H5WRITE=N makes the Nth write of a cube (a dataset
- * or attribute write, or a flush; src/engine/cube.c) fail as if HDF5 had refused it. */
-#ifdef CX_FAULT_INJECTION
-int cx_fault_hdf5_write(void)
-{
-    static long count, fail_at = -1;
-    static int checked;
-    if (!checked) {
-        const char *e = getenv("CX_FAIL_H5WRITE");
-        fail_at = e ? strtol(e, NULL, 10) : -1;
-        checked = 1;
-    }
-    return ++count == fail_at;
-}
-#else
 int cx_fault_hdf5_write(void)
 {
     return 0;
