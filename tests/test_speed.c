@@ -151,6 +151,20 @@ static void test_tanh_mode(int mode, const char *name, double bound, const char 
         }
         cx_test_true("expm1 tanh: portable C == the vector loop, bit for bit", cross,
                      "every argument of the sweep", SRC_OURS);
+        /* the whole array again at each narrower vector width: 4 lanes (AVX2) and none (the
+         * portable C), against the widest the CPU has (v) */
+        char dl[200];
+        snprintf(dl, sizeof dl, "widest width here: %d lanes; every argument of the sweep",
+                 cx_res_simd_lanes());
+        for (int lim = 4; lim >= 1 && w != NULL; lim -= 3) {
+            memcpy(w, x, (size_t)n * sizeof *x);
+            const int old = cx_res_simd_limit(lim);
+            cx_res_tanh(mode, w, n);
+            cx_res_simd_limit(old);
+            snprintf(t, sizeof t,
+                     "expm1 tanh: the array at %d lane(s) == at the widest, bit for bit", lim);
+            cx_test_true(t, memcmp(w, v, (size_t)n * sizeof *v) == 0, dl, SRC_OURS);
+        }
         free(w);
         free(v);
         free(x);
@@ -361,15 +375,96 @@ static void toy_free(toy *t)
     free(t->rowptr);
 }
 
-/* cx_res_probe_batch against cx_res_probe_settle run by run, bit for bit, for B = 1..8, both
+/* The vector pre-activation pass (rows.c) on rows of irregular length: a drive and a closed-loop
+ * run of one reservoir give the same bits with vectors of 8, 4 and 1 lanes (1: the scalar pass
+ * of model.c alone). Rows of 0 to 9 entries, n not a multiple of 8, one-per-node and dense W_in,
+ * both models, and a strong network whose runs saturate. */
+static void test_rows(void)
+{
+    const cx_idx n = 103, steps = 300;
+    int same = 1, cases = 0;
+    for (int variant = 0; variant < 4; variant++) {
+        const int model = variant & 1, dense = variant >> 1, dim = dense ? 3 : 2;
+        cx_rng rng;
+        cx_rng_seed(&rng, 5501 + (uint64_t)variant, 3);
+        cx_idx rowptr[104], col[104 * 9];
+        double val[104 * 9], win[103 * 3], bias[103], wout[(2 * 103 + 1) * 3];
+        rowptr[0] = 0;
+        for (cx_idx i = 0; i < n; i++) {
+            const cx_idx len = (cx_idx)cx_rng_range(&rng, 0.0, 9.999);
+            for (cx_idx k = 0; k < len; k++) {
+                col[rowptr[i] + k] = (cx_idx)cx_rng_range(&rng, 0.0, (double)n - 1e-9);
+                val[rowptr[i] + k] = cx_rng_range(&rng, -0.9, 0.9);
+            }
+            rowptr[i + 1] = rowptr[i] + len;
+            bias[i] = cx_rng_range(&rng, -0.2, 0.2);
+            for (int j = 0; j < dim; j++)
+                win[i * dim + j] = dense || j == i % dim ? cx_rng_range(&rng, -1.0, 1.0) : 0.0;
+        }
+        for (cx_idx i = 0; i < (2 * n + 1) * dim; i++)
+            wout[i] = cx_rng_range(&rng, -3.0, 3.0) / (double)n;
+        cx_csr m = {n, rowptr[n], rowptr, col, val};
+        cx_reservoir res = {0};
+        res.n = n;
+        res.dim = dim;
+        res.model = model;
+        res.features = CX_FEAT_LINEAR_SQUARES;
+        res.rate = 4.0;
+        res.leak = 0.5;
+        res.input_scaling = 0.7;
+        res.tanh_mode = CX_TANH_EXPM1;
+        res.m = &m;
+        res.w_in = win;
+        res.bias = bias;
+        double u[(2 * 300 + 1) * 3];
+        for (cx_idx t = 0; t <= 2 * steps; t++)
+            for (int j = 0; j < dim; j++)
+                u[t * dim + j] = sin(0.03 * (double)t + (double)j);
+        double rd[3][103], rp[3][103], yp[3][(300 + 1) * 3];
+        cx_res_ws *ws = NULL;
+        if (cx_res_ws_alloc(&ws, n, dim, CX_FEAT_LINEAR_SQUARES) != CX_OK) {
+            same = 0;
+            continue;
+        }
+        const int lims[3] = {8, 4, 1};
+        for (int w = 0; w < 3; w++) {
+            const int old = cx_res_simd_limit(lims[w]);
+            cx_idx done_steps = 0;
+            memset(rd[w], 0, sizeof rd[w]);
+            if (cx_res_drive(ws, &res, u, 0.02, steps, 0, 1, rd[w], NULL, NULL) != CX_OK)
+                same = 0;
+            memcpy(rp[w], rd[w], sizeof rp[w]);
+            memset(yp[w], 0, sizeof yp[w]);
+            if (cx_res_probe(ws, &res, wout, 0.02, steps, NULL, NULL, rp[w], yp[w], &done_steps) !=
+                CX_OK)
+                same = 0;
+            cx_res_simd_limit(old);
+        }
+        for (int w = 1; w < 3; w++)
+            same &= memcmp(rd[w], rd[0], sizeof rd[0]) == 0 &&
+                    memcmp(rp[w], rp[0], sizeof rp[0]) == 0 &&
+                    memcmp(yp[w], yp[0], sizeof yp[0]) == 0;
+        cases++;
+        cx_res_ws_free(&ws);
+    }
+    char d[120];
+    snprintf(d, sizeof d, "%d cases, widest vector here %d lanes", cases, cx_res_simd_lanes());
+    cx_test_true("vector pre-activations on rows of 0..9 entries: drive and closed loop at 8, 4 "
+                 "and 1 lanes give the same bits (both models, one-per-node and dense W_in)",
+                 same && cases == 4, d, SRC_OURS);
+}
+
+/* cx_res_probe_batch against cx_res_probe_settle run by run, bit for bit, for B = 1..16, both
  * models, runs that leave the box, settle, or run the whole horizon; every other run has a second
- * readout, as the runs of two cells of a blend axis sharing one block. */
+ * readout, as the runs of two cells of a blend axis sharing one block. The batches run at each
+ * vector width (8 lanes where the CPU has AVX-512F, 4, none), the single runs at the widest. */
 static void test_batch(void)
 {
     const cx_idx n = 90, steps = 700;
-    const int maxb = 8;
+    const int maxb = 16;
     int same = 1, cases = 0;
     int64_t left = 0, settled = 0, full = 0;
+    const int widest = cx_res_simd_lanes();
     for (int model = 0; model < 2; model++) {
         for (int active = 0; active < 4; active++) {
             /* active & 1: a strong network (runs leave the box) or a weak one (runs settle);
@@ -406,12 +501,13 @@ static void test_batch(void)
             res.w_in = t.win;
             const double lo[3] = {-0.16, -0.16, -0.16}, hi[3] = {0.16, 0.16, 0.16};
             const cx_res_settle settle = {25, 1e-11, 1e-12};
-            for (int nb = 1; nb <= maxb; nb++) {
+            for (int nbw = 0; nbw < 3 * maxb; nbw++) {
+                const int nb = nbw % maxb + 1, lim = nbw < maxb ? 8 : nbw < 2 * maxb ? 4 : 1;
                 cx_rng rng;
                 cx_rng_seed(&rng, 77 + (uint64_t)nb, 5);
-                double *rs[8], *ys[8];
-                const double *wo[8];
-                cx_idx sd1[8], sa1[8], sd2[8], sa2[8];
+                double *rs[16], *ys[16];
+                const double *wo[16];
+                cx_idx sd1[16], sa1[16], sd2[16], sa2[16];
                 memset(y1, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y1);
                 memset(y2, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y2);
                 for (int b = 0; b < nb; b++) {
@@ -426,9 +522,11 @@ static void test_batch(void)
                     rs[b] = r2 + b * n;
                     ys[b] = y2 + b * (steps + 1) * dim;
                 }
+                const int old = cx_res_simd_limit(lim);
                 if (cx_res_probe_batch(ws, &res, wo, 0.02, steps, lo, hi, &settle, nb, rs, ys, sd2,
                                        sa2) != CX_OK)
                     same = 0;
+                cx_res_simd_limit(old);
                 for (int b = 0; b < nb; b++) {
                     same &= sd1[b] == sd2[b] && sa1[b] == sa2[b];
                     if (sa1[b] >= 0)
@@ -452,12 +550,14 @@ static void test_batch(void)
         }
     }
     char d[200];
-    snprintf(d, sizeof d, "%d cases; runs: %lld left the box, %lld settled, %lld full horizon",
-             cases, (long long)left, (long long)settled, (long long)full);
+    snprintf(d, sizeof d,
+             "%d cases; runs: %lld left the box, %lld settled, %lld full horizon; widest vector "
+             "here %d lanes",
+             cases, (long long)left, (long long)settled, (long long)full, widest);
     cx_test_true("batched probe == one run at a time, bit for bit (outputs, states, stop steps), "
-                 "B = 1..8, both models, three tanh, three feature maps, one-per-node and dense "
-                 "W_in, 2 and 3 outputs, two readouts in one block",
-                 same && cases == 64, d, SRC_OURS);
+                 "B = 1..16, both models, three tanh, three feature maps, one-per-node and dense "
+                 "W_in, 2 and 3 outputs, two readouts in one block, vectors of 8, 4 and 1 lanes",
+                 same && cases == 384, d, SRC_OURS);
     cx_test_true("batched probe check covers runs that leave, settle and run the whole horizon",
                  left > 0 && settled > 0 && full > 0, d, SRC_OURS);
 }
@@ -541,6 +641,7 @@ int main(void)
     openblas_set_num_threads(1);
     test_tanh_mode(CX_TANH_VECTOR, "vector", 5.5, SRC_SLEEF); /* 3.5 + glibc's 2 */
     test_tanh_mode(CX_TANH_EXPM1, "expm1", 4.0, SRC_EXPM1);
+    test_rows();
     test_batch();
     test_group();
     test_early_stop_demo();

@@ -147,6 +147,11 @@ int cx_res_probe_settle(cx_res_ws *ws, const cx_reservoir *res, const double *w_
  * call it once before the probes of a cell, never in a loop. */
 int cx_res_ws_set_batch(cx_res_ws *ws, int nb);
 
+/* The most runs one batch should hold for reservoirs with this tanh (enum cx_tanh) on this CPU:
+ * two vectors of the fused kernel (16 with AVX-512F, else 8). A block size, not a limit: the
+ * results of a run do not depend on it. */
+int cx_res_batch_runs(int tanh_mode);
+
 /* nruns closed-loop runs of one reservoir advanced together as one n x B block (batch.c). Run b
  * has the readout w_out[b] (runs may share one, or each have its own, as the cells of a blend
  * axis do), starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim, or
@@ -162,6 +167,12 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
 /* Drive with a constant input point p for nsteps (for "drive-point" random starts). */
 int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *p, double dt,
                           cx_idx nsteps, double *r);
+
+/* Cap the vector width of the stepping kernels at `lanes` doubles (8: AVX-512F, 4: AVX2 + FMA,
+ * 1: no vector unit) and return the previous cap; the kernels take the widest the CPU has within
+ * the cap (8 by default). Results are the same bits at every width: this is for benchmarks and
+ * tests. Set it before computing, not while other threads step. */
+int cx_res_simd_limit(int lanes);
 
 /* Largest Lyapunov exponent of the closed loop by two nearby trajectories with renormalisation
  * every step (Benettin et al. 1980, Meccanica 15, 9), for either model. From r (in/out), `steps`

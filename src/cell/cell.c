@@ -25,11 +25,6 @@
 #include "coexist/task.h"
 #include "cell_impl.h"
 
-/* Closed-loop runs advanced together as one block (cx_res_probe_batch): enough to share each
- * pass over M among several runs, few enough that the n x B blocks stay in the outer caches.
- * Results do not depend on it (bit for bit). */
-#define CX_CELL_BATCH 8
-
 const char *cx_cell_status_name(int status)
 {
     switch (status) {
@@ -381,7 +376,11 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
         CX_ALLOC(ws->settled_at, nruns);
         ws->run_ptr_cap = nruns;
     }
-    CX_TRY(cx_res_ws_set_batch(ws->rws, nruns < CX_CELL_BATCH ? nruns : CX_CELL_BATCH));
+    /* closed-loop runs advanced together as one block (cx_res_probe_batch): enough to share each
+     * pass over M among several runs, few enough that the n x B blocks stay in the outer caches;
+     * results do not depend on it (bit for bit) */
+    const int batch = cx_res_batch_runs(p->res.tanh_mode);
+    CX_TRY(cx_res_ws_set_batch(ws->rws, nruns < batch ? nruns : batch));
     if (ws->cws == NULL || ws->cws_cap < ws->horizon + 1 || ws->cws_dim != p->dim) {
         cx_class_ws_free(&ws->cws);
         CX_TRY(cx_class_ws_alloc(&ws->cws, ws->horizon + 1, p->dim));
@@ -651,7 +650,8 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
 
     /* Stage 5: every run's start (the same for the whole group: starts depend on the drive and
      * the seed only), then the runs of all cells whose readout was solved, advanced together in
-     * blocks of CX_CELL_BATCH (bit for bit what one run at a time gives), then each cell judged. */
+     * blocks of cx_res_batch_runs (bit for bit what one run at a time gives), then each cell
+     * judged. */
     const cx_cell_params *p0 = p[0];
     const int nruns = out[0].nruns;
     int total = 0;
@@ -686,8 +686,9 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
             run_w[q] = ws->w_out + (cx_idx)g * ws->nfeat * p0->dim;
         }
     }
-    for (int j = 0; j < total; j += CX_CELL_BATCH) {
-        int nb = total - j < CX_CELL_BATCH ? total - j : CX_CELL_BATCH;
+    const int batch = cx_res_batch_runs(p0->res.tanh_mode);
+    for (int j = 0; j < total; j += batch) {
+        int nb = total - j < batch ? total - j : batch;
         CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, p0->train.dt, ws->horizon, ps.lo, ps.hi,
                                   &ps.settle, nb, run_state + j, run_y + j, ws->steps_done + j,
                                   ws->settled_at + j));

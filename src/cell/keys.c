@@ -203,14 +203,16 @@ double cx_cell_memory_bytes(const cx_cell_params *p)
      * (cx_cell_compute_group): their readouts, run states and outputs are held together */
     const double group = CX_CELL_GROUP;
     const double runs = (double)(p->ntasks + p->probe.random_starts);
-    return 8.0 * (tasks * (nf * nf + nf * dim) /* G_k, C_k */
-                  + nf * nf + nf * dim         /* solve workspace */
-                  + group * nf * dim           /* the group's readouts */
-                  + tasks * 2.0 * steps * dim  /* task signals */
-                  + group * runs * ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
-                        dim                           /* every run's outputs */
-                  + group * runs * n                  /* every run's state */
-                  + 8.0 * (6.0 + 2.0 * dim + 1.0) * n /* the block of up to 8 runs, packed W_out */
-                  + 24.0 * n + 2.0 * nnz) +
+    return 8.0 *
+               (tasks * (nf * nf + nf * dim) /* G_k, C_k */
+                + nf * nf + nf * dim         /* solve workspace */
+                + group * nf * dim           /* the group's readouts */
+                + tasks * 2.0 * steps * dim  /* task signals */
+                + group * runs * ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
+                      dim                            /* every run's outputs */
+                + group * runs * n                   /* every run's state */
+                + 16.0 * (6.0 + 2.0 * dim + 1.0) * n /* the block of up to 16 runs, packed W_out */
+                + 24.0 * n + 2.0 * nnz               /* stage vectors, M */
+                + 8.0 * n + 4.0 * nnz) +             /* M's rows for the vector pass (rows.c) */
            dense_eig;
 }

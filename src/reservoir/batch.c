@@ -23,10 +23,17 @@
 #include "reservoir/reservoir_impl.h"
 
 /* Columns allocated for a batch of nb runs: room for the fused kernel's padding to a multiple
- * of 4 (fused.c). */
+ * of its vector width, 4 or 8 (fused.c). */
 static int padded(int nb)
 {
-    return (nb + 3) / 4 * 4;
+    return (nb + 7) / 8 * 8;
+}
+
+int cx_res_batch_runs(int tanh_mode)
+{
+    /* the fused kernel's widest block: two vectors; the generic kernel unrolls up to 8 */
+    const cx_reservoir probe = {.tanh_mode = tanh_mode};
+    return cx_res_fused_lanes(&probe) == 8 ? 16 : 8;
 }
 
 int cx_res_ws_set_batch(cx_res_ws *ws, int nb)
@@ -70,41 +77,54 @@ done:
  * unknown length 2 cost more than the arithmetic). */
 #define CX_INLINE static inline __attribute__((always_inline))
 
-/* Pre-activations of the B runs into s (n x B): per run exactly preact() of model.c. */
+/* Pre-activations of node i for the B runs into s (n x B): per run exactly preact() of
+ * model.c. */
+CX_INLINE void preact_node_block(const cx_res_ws *restrict ws, const cx_csr *restrict m,
+                                 const int nb, const double *restrict x, const double *restrict u,
+                                 cx_idx i, double *restrict s)
+{
+    const int dim = ws->dim;
+    double si[CX_MAX_RUNS];
+    const double bi = ws->bias[i];
+    if (ws->onehot) {
+        const double w = ws->inw[i];
+        const cx_idx j = ws->incol[i];
+        for (int c = 0; c < nb; c++)
+            si[c] = bi + w * u[c * dim + j];
+    } else {
+        const double *w = ws->win + i * dim;
+        for (int c = 0; c < nb; c++) {
+            double v = bi;
+            for (int j = 0; j < dim; j++)
+                v += w[j] * u[c * dim + j];
+            si[c] = v;
+        }
+    }
+    for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++) {
+        const double v = m->val[p];
+        const double *restrict xj = x + m->col[p] * nb;
+        for (int c = 0; c < nb; c++)
+            si[c] += v * xj[c];
+    }
+    for (int c = 0; c < nb; c++)
+        s[i * nb + c] = si[c];
+}
+
+/* Pre-activations of the B runs into s (n x B). For one run the vector pass over the nodes
+ * (rows.c) takes the full chunks of the row layout and this loop the rest; for two it measured
+ * slower than this loop, whose two runs per node overlap (tools/bench.c: 3.1 against 2.8 ns per
+ * node per stage per run at N = 1000). */
 CX_INLINE void preact_block(const cx_res_ws *restrict ws, const cx_csr *restrict m, const int nb,
                             const double *restrict x, const double *restrict u, double *restrict s)
 {
-    const cx_idx n = ws->n;
-    const int dim = ws->dim;
-    const cx_idx *restrict rowptr = m->rowptr;
-    const cx_idx *restrict col = m->col;
-    const double *restrict val = m->val;
-    for (cx_idx i = 0; i < n; i++) {
-        double si[CX_MAX_RUNS];
-        const double bi = ws->bias[i];
-        if (ws->onehot) {
-            const double w = ws->inw[i];
-            const cx_idx j = ws->incol[i];
-            for (int c = 0; c < nb; c++)
-                si[c] = bi + w * u[c * dim + j];
-        } else {
-            const double *w = ws->win + i * dim;
-            for (int c = 0; c < nb; c++) {
-                double v = bi;
-                for (int j = 0; j < dim; j++)
-                    v += w[j] * u[c * dim + j];
-                si[c] = v;
-            }
-        }
-        for (cx_idx p = rowptr[i]; p < rowptr[i + 1]; p++) {
-            const double v = val[p];
-            const double *restrict xj = x + col[p] * nb;
-            for (int c = 0; c < nb; c++)
-                si[c] += v * xj[c];
-        }
-        for (int c = 0; c < nb; c++)
-            s[i * nb + c] = si[c];
+    const cx_idx q0 = nb == 1 ? cx_res_preact_rows(ws, x, u, s) : 0;
+    if (q0 == 0) {
+        for (cx_idx i = 0; i < ws->n; i++)
+            preact_node_block(ws, m, nb, x, u, i, s);
+        return;
     }
+    for (cx_idx q = q0; q < ws->n; q++)
+        preact_node_block(ws, m, nb, x, u, ws->rows_node[q], s);
 }
 
 /* W_out q(x) of the B runs, run c with its own w_out[c], node by node, linear term then square:
@@ -233,18 +253,26 @@ static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restri
                 y[c * dim + j] += w_out[c][2 * n * dim + j];
 }
 
-/* One closed-loop step of the block: cx_res_closed_step() for every column. With `fused` the
- * block is w columns wide (a multiple of 4, fused.c) and the readouts are packed in ws->bpack. */
+/* The fused kernel's packed readouts of a block w columns wide, and their constants. */
+static double *pconst_of(const cx_res_ws *ws, int w)
+{
+    return ws->bpack + 2 * ws->n * ws->dim * w;
+}
+
+/* One closed-loop step of the block: cx_res_closed_step() for every column. With lanes > 0 the
+ * fused kernel at that vector width takes it (fused.c): the block is nb = lanes or 2 lanes
+ * columns wide and the readouts are packed in ws->bpack. */
 static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                              double dt, int nb, int fused, double *y)
+                              double dt, int nb, int lanes, double *y)
 {
     double ys[CX_MAX_RUNS * CX_MAX_DIM], yt[CX_MAX_RUNS * CX_MAX_DIM];
     double *r = ws->bx;
-    const double *pack = ws->bpack, *pconst = ws->bpack + 2 * ws->n * ws->dim * nb;
+    const double *pack = ws->bpack, *pconst = pconst_of(ws, nb);
 #define CX_STAGE(st, x, u, c0, acc, rr, xout, yout)                                                \
     do {                                                                                           \
-        if (fused)                                                                                 \
-            cx_res_stage_fused(ws, res, nb, st, x, u, c0, acc, rr, xout, pack, pconst, yout);      \
+        if (lanes)                                                                                 \
+            cx_res_stage_fused(ws, res, lanes, nb, st, x, u, c0, acc, rr, xout, pack, pconst,      \
+                               yout);                                                              \
         else                                                                                       \
             stage_block(ws, res, nb, st, x, u, c0, acc, rr, xout, w_out, yout);                    \
     } while (0)
@@ -281,7 +309,7 @@ static int outside(const double *y, int dim, const double *lo, const double *hi)
  * the row, so the shrinking layout never overwrites a value still to be read. */
 static void relayout(double *blk, cx_idx n, int w_old, int nb_old, const int *keep, int w_new)
 {
-    double row[CX_MAX_RUNS + 4];
+    double row[CX_MAX_RUNS + 8];
     for (cx_idx i = 0; i < n; i++) {
         memcpy(row, blk + i * w_old, (size_t)w_old * sizeof *row);
         int to = 0;
@@ -293,10 +321,20 @@ static void relayout(double *blk, cx_idx n, int w_old, int nb_old, const int *ke
     }
 }
 
-/* The block width for nb live runs: padded to 4 or 8 for the fused kernel, else nb. */
-static int block_width(int fused, int nb)
+/* The kernel for nb live runs: the vector width of the fused kernel (4 or 8, at most `most`),
+ * or 0 for the generic one, and the block's width *w: nb padded to one or two vectors for the
+ * fused kernel, else nb. Measured (tools/bench.c): for one or two runs the padding costs more
+ * than the fused kernel saves (about 1.4x slower for one run, even for two); up to four runs
+ * take one AVX2 vector. */
+static int block_kernel(int most, int nb, int *w)
 {
-    return fused ? padded(nb) : nb;
+    int lanes = 0;
+    if (most >= 4 && nb >= 3)
+        lanes = most == 8 && nb > 4 ? 8 : 4;
+    if (lanes && nb > 2 * lanes)
+        lanes = 0; /* wider than the kernel takes */
+    *w = lanes ? (nb + lanes - 1) / lanes * lanes : nb;
+    return lanes;
 }
 
 int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
@@ -320,13 +358,11 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     const cx_idx n = ws->n;
     const int dim = ws->dim;
     const cx_idx window = settle != NULL ? settle->window : 0;
-    /* the fused kernel takes blocks of 4 or 8 columns; for one or two runs the padding would
-     * cost more than it saves (measured: about 1.4x slower for one run, even for two) */
-    const int fused = cx_res_fused_ok(res) && nruns >= 3 && nruns <= 8;
-    int run[CX_MAX_RUNS + 4], keep[CX_MAX_RUNS + 4];
-    const double *wcol[CX_MAX_RUNS + 4]; /* the readout of each column of the block */
+    const int most = cx_res_fused_lanes(res);
+    int run[CX_MAX_RUNS + 8], keep[CX_MAX_RUNS + 8];
+    const double *wcol[CX_MAX_RUNS + 8]; /* the readout of each column of the block */
     cx_idx still[CX_MAX_RUNS];
-    double y[(CX_MAX_RUNS + 4) * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
+    double y[(CX_MAX_RUNS + 8) * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
     int nb = 0;
     for (int b = 0; b < nruns; b++) {
         double yb[CX_MAX_DIM];
@@ -346,7 +382,8 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
         nb++;
     }
     /* w: the block's width, nb live columns then copies of column 0 */
-    int w = nb > 0 ? block_width(fused, nb) : 0;
+    int w = 0;
+    int lanes = nb > 0 ? block_kernel(most, nb, &w) : 0;
     for (int c = 0; c < w; c++) {
         const int from = c < nb ? c : 0;
         for (cx_idx i = 0; i < n; i++)
@@ -356,10 +393,10 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             memcpy(y + c * dim, y, (size_t)dim * sizeof *y);
         }
     }
-    if (fused && nb > 0)
-        cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, ws->bpack + 2 * n * dim * w);
+    if (lanes)
+        cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, wcol, dt, w, fused, y);
+        closed_step_block(ws, res, wcol, dt, w, lanes, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
@@ -402,7 +439,8 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
         }
         if (stopped > 0 && stopped < nb) {
             const int nb_new = nb - stopped;
-            const int w_new = block_width(fused, nb_new);
+            int w_new = 0;
+            lanes = block_kernel(most, nb_new, &w_new);
             relayout(ws->bx, n, w, nb, keep, w_new);
             relayout(ws->bprev, n, w, nb, keep, w_new);
             int to = 0;
@@ -422,9 +460,8 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             }
             nb = nb_new;
             w = w_new;
-            if (fused)
-                cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack,
-                                     ws->bpack + 2 * n * dim * w);
+            if (lanes)
+                cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
         } else if (stopped == nb) {
             nb = 0;
         }

@@ -108,6 +108,15 @@ void cx_res_ws_free(cx_res_ws **pws)
     if (pws == NULL || *pws == NULL)
         return;
     cx_res_ws *ws = *pws;
+    free(ws->rows_val);
+    free(ws->rows_col);
+    free(ws->rows_win);
+    free(ws->rows_inw);
+    free(ws->rows_bias);
+    free(ws->rows_off);
+    free(ws->rows_incol);
+    free(ws->rows_len);
+    free(ws->rows_node);
     free(ws->bpack);
     free(ws->bpre);
     free(ws->bacc);
@@ -178,6 +187,7 @@ int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res)
         ws->bias[i] = res->bias != NULL ? res->bias[i] : 0.0;
     }
     ws->onehot = onehot;
+    CX_TRY(cx_res_rows_build(ws, res));
 done:
     return rc;
 }
@@ -213,6 +223,21 @@ static inline double preact(const cx_res_ws *restrict ws, const cx_csr *restrict
     for (cx_idx p = m->rowptr[i]; p < end; p++)
         s += val[p] * x[col[p]];
     return s;
+}
+
+/* The pre-activations of all nodes into s: the vector pass over the chunks of the row layout
+ * (rows.c, the same bits), the scalar one over the rest. */
+static void preact_pass(const cx_res_ws *restrict ws, const cx_csr *restrict m,
+                        const double *restrict x, const double *restrict u, double *restrict s)
+{
+    const cx_idx q0 = cx_res_preact_rows(ws, x, u, s);
+    if (q0 == 0) {
+        for (cx_idx i = 0; i < ws->n; i++)
+            s[i] = preact(ws, m, x, u, i);
+        return;
+    }
+    for (cx_idx q = q0; q < ws->n; q++)
+        s[ws->rows_node[q]] = preact(ws, m, x, u, ws->rows_node[q]);
 }
 
 /* Add node i's share of W_out q(x) to y, x_i = v. The order (node by node, linear term then
@@ -277,8 +302,7 @@ static void rk4_stage(const cx_res_ws *restrict ws, const cx_reservoir *restrict
     const double gamma = res->rate;
     const cx_csr *m = res->m;
     double *restrict s = ws->pre;
-    for (cx_idx i = 0; i < n; i++)
-        s[i] = preact(ws, m, x, u, i);
+    preact_pass(ws, m, x, u, s);
     cx_res_tanh(res->tanh_mode, s, n);
     if (stage == 1) {
         for (cx_idx i = 0; i < n; i++) {
@@ -312,8 +336,7 @@ static void map_pass(const cx_res_ws *restrict ws, const cx_reservoir *restrict 
     const double keep = 1.0 - a;
     const cx_csr *m = res->m;
     double *restrict s = ws->pre;
-    for (cx_idx i = 0; i < n; i++)
-        s[i] = preact(ws, m, x, u, i);
+    preact_pass(ws, m, x, u, s);
     cx_res_tanh(res->tanh_mode, s, n);
     for (cx_idx i = 0; i < n; i++)
         xout[i] = keep * x[i] + a * s[i];

@@ -24,6 +24,15 @@ struct cx_res_ws {
     double *inw;   /* n: sigma times the single non-zero of row i (one-per-node layout) */
     cx_idx *incol; /* n: its column */
     int onehot;    /* every row of W_in has at most one non-zero */
+    /* The rows of M for the vector pre-activation pass (rows.c), built by cx_res_meet: position
+     * q holds node rows_node[q], by descending row length; positions [0, rows_full) form chunks
+     * of rows_lanes (0: no layout, the scalar pass), chunk c's k-th entries at
+     * rows_off[c] + k L + lane. */
+    int rows_lanes;
+    cx_idx rows_full;
+    cx_idx rows_cap; /* entries allocated in rows_col and rows_val */
+    cx_idx *rows_node, *rows_len, *rows_incol, *rows_off, *rows_col;
+    double *rows_bias, *rows_inw, *rows_win, *rows_val;
     /* Gram accumulation block: q columns (nfeat x block, column-major) and u columns. */
     cx_idx block;
     double *qblk;
@@ -45,17 +54,30 @@ struct cx_res_ws {
 /* Check that `res` fits the workspace and build the input tables. */
 int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
 
+/* Build the layout of the vector pre-activation pass for res (rows.c); called by cx_res_meet. */
+int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res);
+
+/* s_i = b_i + (sigma W_in u)_i + (M x)_i of one run for the nodes rows_node[q], q < the
+ * returned count (rows_full, or 0 without a layout), with the bits of the scalar pass (rows.c). */
+cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u, double *s);
+
 /* x_i <- tanh(x_i), i < n, the way `mode` (enum cx_tanh) says; see tanh.c. */
 void cx_res_tanh(int mode, double *x, cx_idx n);
 
+/* The vector lanes the kernels use: 8 with AVX-512F, 4 with AVX2 + FMA, else 1, never more than
+ * cx_res_simd_limit allows (tanh.c). */
+int cx_res_simd_lanes(void);
+
 /* The fused closed-loop block kernel (fused.c): usable when the tanh is our own and the CPU has
- * AVX2 + FMA. cx_res_pack_readouts lays out the readouts of w columns for it (pack: 2 n dim w
- * doubles, then pconst: dim w); cx_res_stage_fused is stage_block() of batch.c for a block w = 4
- * or 8 columns wide, with the same bits. */
-int cx_res_fused_ok(const cx_reservoir *res);
+ * AVX2 + FMA; cx_res_fused_lanes gives the widest vector it can use (4 or 8), 0 when it cannot
+ * be used. cx_res_pack_readouts lays out the readouts of w columns for it (pack: 2 n dim w
+ * doubles, then pconst: dim w); cx_res_stage_fused is stage_block() of batch.c for a block
+ * w = lanes or 2 lanes columns wide (lanes 4 or 8, at most cx_res_fused_lanes), with the same
+ * bits. */
+int cx_res_fused_lanes(const cx_reservoir *res);
 void cx_res_pack_readouts(cx_idx n, int dim, int features, int w, const double *const *w_out,
                           double *pack, double *pconst);
-void cx_res_stage_fused(const cx_res_ws *ws, const cx_reservoir *res, int w, int stage,
+void cx_res_stage_fused(const cx_res_ws *ws, const cx_reservoir *res, int lanes, int w, int stage,
                         const double *x, const double *u, double c0, double *acc, double *r,
                         double *xout, const double *pack, const double *pconst, double *y);
 

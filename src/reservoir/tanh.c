@@ -79,6 +79,16 @@ static void own_portable(double *x, cx_idx n)
         x[i] = own_tanh1(x[i]);
 }
 
+/* The widest vector the kernels may use (cx_res_simd_limit); set before computing. */
+static int simd_cap = 8;
+
+int cx_res_simd_limit(int lanes)
+{
+    const int old = simd_cap;
+    simd_cap = lanes;
+    return old;
+}
+
 #if defined(__x86_64__)
 /* The intrinsics are read with the baseline ISA (each of GCC's headers gives its functions their
  * own target); sleef.h declares its AVX2 and AVX-512 functions only when __AVX2__ / __AVX512F__
@@ -129,28 +139,60 @@ static void tanh_sse(double *x, cx_idx n)
 }
 
 
-__attribute__((target("avx2,fma"))) static void own_avx2(double *x, cx_idx n)
+/* The tanh pass at L lanes: four vectors abreast, then one, then the portable C for the tail
+ * (the same operations, so the same bits). */
+#define CX_OWN_PASS                                                                                \
+    __attribute__((target(CXV_TARGET))) static void CXV_FN(own)(double *x, cx_idx n)               \
+    {                                                                                              \
+        const int l = CX_SIMD_LANES;                                                               \
+        cx_idx i = 0;                                                                              \
+        for (; i + 4 * l <= n; i += 4 * l) {                                                       \
+            CXV v[4];                                                                              \
+            for (int k = 0; k < 4; k++)                                                            \
+                v[k] = CXV_LOAD(x + i + l * k);                                                    \
+            CXV_FN(cx_tanh_expm1_k)(v, 4);                                                         \
+            for (int k = 0; k < 4; k++)                                                            \
+                CXV_STORE(x + i + l * k, v[k]);                                                    \
+        }                                                                                          \
+        for (; i + l <= n; i += l) {                                                               \
+            CXV v = CXV_LOAD(x + i);                                                               \
+            CXV_FN(cx_tanh_expm1_k)(&v, 1);                                                        \
+            CXV_STORE(x + i, v);                                                                   \
+        }                                                                                          \
+        own_portable(x + i, n - i);                                                                \
+    }
+
+#define CX_SIMD_LANES 4
+#include "reservoir/simd.h"
+#include "reservoir/tanh_expm1_k.h"
+CX_OWN_PASS
+#undef CX_SIMD_LANES
+#include "reservoir/simd.h"
+
+#define CX_SIMD_LANES 8
+#include "reservoir/simd.h"
+#include "reservoir/tanh_expm1_k.h"
+CX_OWN_PASS
+#undef CX_SIMD_LANES
+#include "reservoir/simd.h"
+#undef CX_OWN_PASS
+
+int cx_res_simd_lanes(void)
 {
-    cx_idx i = 0;
-    for (; i + 16 <= n; i += 16) {
-        __m256d v[4];
-        for (int k = 0; k < 4; k++)
-            v[k] = _mm256_loadu_pd(x + i + 4 * k);
-        cx_tanh_expm1_avx2_k(v, 4);
-        for (int k = 0; k < 4; k++)
-            _mm256_storeu_pd(x + i + 4 * k, v[k]);
-    }
-    for (; i + 4 <= n; i += 4) {
-        __m256d v = _mm256_loadu_pd(x + i);
-        cx_tanh_expm1_avx2_k(&v, 1);
-        _mm256_storeu_pd(x + i, v);
-    }
-    own_portable(x + i, n - i); /* the same operations, so the same bits */
+    /* __builtin_cpu_supports reads a table filled once by libgcc at start-up. */
+    if (simd_cap >= 8 && __builtin_cpu_supports("avx512f"))
+        return 8;
+    if (simd_cap >= 4 && __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))
+        return 4;
+    return 1;
 }
 
 static void own_tanh(double *x, cx_idx n)
 {
-    if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))
+    const int lanes = cx_res_simd_lanes();
+    if (lanes == 8)
+        own_avx512(x, n);
+    else if (lanes == 4)
         own_avx2(x, n);
     else
         own_portable(x, n);
@@ -158,16 +200,21 @@ static void own_tanh(double *x, cx_idx n)
 
 static void tanh_vector(double *x, cx_idx n)
 {
-    /* __builtin_cpu_supports reads a table filled once by libgcc at start-up. */
-    if (__builtin_cpu_supports("avx512f"))
+    const int lanes = cx_res_simd_lanes();
+    if (lanes == 8)
         tanh_avx512(x, n);
-    else if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))
+    else if (lanes == 4)
         tanh_avx2(x, n);
     else
         tanh_sse(x, n);
 }
 #else
 #include <sleef.h>
+
+int cx_res_simd_lanes(void)
+{
+    return 1;
+}
 
 static void own_tanh(double *x, cx_idx n)
 {

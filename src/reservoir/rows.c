@@ -1,0 +1,164 @@
+/* coexist: the pre-activations of one run, L nodes at a time in one vector register.
+ *
+ * The pass s_i = b_i + (sigma W_in u)_i + sum_j M_ij x_j of model.c, one node after another, was
+ * the larger part of a one-run step (about 2 ns of the 3 ns per node per stage of the drive on
+ * the project machine, tools/bench.c): each node is a short chain of dependent adds over a few
+ * scattered loads. Here L nodes (4 with AVX2, 8 with AVX-512F) advance side by side, lane l
+ * doing exactly node i's operations in node i's order (b_i + input, then the entries of row i
+ * in storage order), so every s_i has the bits of the scalar pass. The rows are laid out in the
+ * sliced ELLPACK form with rows sorted by length (SELL-C-sigma of Kreutzer, Hager, Wellein,
+ * Fehske & Bishop 2014, SIAM J. Sci. Comput. 36(5), C401, with C = L and sigma = n): chunk c
+ * holds L rows of similar length, its k-th entries side by side; a lane whose row is shorter
+ * than k is left out by a mask, never given a zero entry (a zero times an infinite x would be
+ * NaN, and -0 + 0 is +0). The layout is rebuilt by cx_res_meet at every call (O(n + nnz)), since
+ * a caller may rescale M in place between calls. The rows past the last full chunk (the shortest)
+ * take the scalar pass.
+ */
+#include <stdlib.h>
+#include <string.h>
+
+#include "coexist/error.h"
+#include "reservoir/reservoir_impl.h"
+
+/* The per-node tables of the layout, all or nothing (a failure leaves none behind). */
+static int rows_alloc(cx_res_ws *ws)
+{
+    int rc = CX_OK;
+    const cx_idx n = ws->n;
+    cx_idx *node = NULL, *len = NULL, *incol = NULL, *offs = NULL;
+    double *bias = NULL, *inw = NULL, *win = NULL;
+    CX_ALLOC(node, n);
+    CX_ALLOC(len, n);
+    CX_ALLOC(incol, n);
+    CX_ALLOC(offs, n / 4 + 1);
+    CX_ALLOC(bias, n);
+    CX_ALLOC(inw, n);
+    CX_ALLOC(win, n * ws->dim);
+    ws->rows_node = node;
+    ws->rows_len = len;
+    ws->rows_incol = incol;
+    ws->rows_off = offs;
+    ws->rows_bias = bias;
+    ws->rows_inw = inw;
+    ws->rows_win = win;
+    return CX_OK;
+done:
+    free(win);
+    free(inw);
+    free(bias);
+    free(offs);
+    free(incol);
+    free(len);
+    free(node);
+    return rc;
+}
+
+int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res)
+{
+    int rc = CX_OK;
+    const int lanes = cx_res_simd_lanes();
+    ws->rows_lanes = 0;
+    if (lanes < 4)
+        return CX_OK;
+    const cx_idx n = ws->n;
+    const int dim = ws->dim;
+    const cx_csr *m = res->m;
+    if (ws->rows_node == NULL)
+        CX_TRY(rows_alloc(ws));
+    /* positions by descending row length, ties in node order (a counting sort) */
+    cx_idx maxlen = 0;
+    for (cx_idx i = 0; i < n; i++) {
+        const cx_idx len = m->rowptr[i + 1] - m->rowptr[i];
+        maxlen = len > maxlen ? len : maxlen;
+    }
+    cx_idx *start = NULL;
+    CX_CALLOC(start, maxlen + 2);
+    for (cx_idx i = 0; i < n; i++)
+        start[maxlen - (m->rowptr[i + 1] - m->rowptr[i]) + 1]++;
+    for (cx_idx k = 1; k <= maxlen + 1; k++)
+        start[k] += start[k - 1];
+    for (cx_idx i = 0; i < n; i++)
+        ws->rows_node[start[maxlen - (m->rowptr[i + 1] - m->rowptr[i])]++] = i;
+    free(start);
+    const cx_idx full = n / lanes * lanes;
+    cx_idx need = 0;
+    for (cx_idx q = 0; q < full; q += lanes) {
+        const cx_idx i = ws->rows_node[q];
+        need += (m->rowptr[i + 1] - m->rowptr[i]) * lanes;
+    }
+    if (need > ws->rows_cap) {
+        cx_idx *col = NULL;
+        double *val = NULL;
+        CX_ALLOC(col, need);
+        CX_ALLOC(val, need);
+        free(ws->rows_col);
+        free(ws->rows_val);
+        ws->rows_col = col;
+        ws->rows_val = val;
+        ws->rows_cap = need;
+    }
+    cx_idx off = 0;
+    for (cx_idx q = 0; q < n; q++) {
+        const cx_idx i = ws->rows_node[q];
+        ws->rows_len[q] = m->rowptr[i + 1] - m->rowptr[i];
+        ws->rows_bias[q] = ws->bias[i];
+        ws->rows_inw[q] = ws->inw[i];
+        ws->rows_incol[q] = ws->incol[i];
+    }
+    for (cx_idx q0 = 0; q0 < full; q0 += lanes) {
+        const cx_idx c = q0 / lanes;
+        const cx_idx kmax = ws->rows_len[q0];
+        ws->rows_off[c] = off;
+        for (int j = 0; j < dim; j++)
+            for (int l = 0; l < lanes; l++)
+                ws->rows_win[(c * dim + j) * lanes + l] = ws->win[ws->rows_node[q0 + l] * dim + j];
+        for (cx_idx k = 0; k < kmax; k++)
+            for (int l = 0; l < lanes; l++) {
+                const cx_idx i = ws->rows_node[q0 + l];
+                const int in = k < ws->rows_len[q0 + l];
+                /* a short row's lane reads x_i and adds nothing (masked) */
+                ws->rows_col[off + k * lanes + l] = in ? m->col[m->rowptr[i] + k] : i;
+                ws->rows_val[off + k * lanes + l] = in ? m->val[m->rowptr[i] + k] : 0.0;
+            }
+        off += kmax * lanes;
+    }
+    ws->rows_full = full;
+    ws->rows_lanes = lanes;
+done:
+    return rc;
+}
+
+#if defined(__x86_64__)
+
+#define CX_SIMD_LANES 4
+#include "reservoir/simd.h"
+#include "reservoir/rows_kernel.h"
+#undef CX_SIMD_LANES
+#include "reservoir/simd.h"
+
+#define CX_SIMD_LANES 8
+#include "reservoir/simd.h"
+#include "reservoir/rows_kernel.h"
+#undef CX_SIMD_LANES
+#include "reservoir/simd.h"
+
+cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u, double *s)
+{
+    if (ws->rows_lanes == 8)
+        preact_rows_avx512(ws, x, u, s);
+    else if (ws->rows_lanes == 4)
+        preact_rows_avx2(ws, x, u, s);
+    else
+        return 0;
+    return ws->rows_full;
+}
+
+#else
+
+cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u, double *s)
+{
+    (void)ws, (void)x, (void)u, (void)s;
+    return 0;
+}
+
+#endif
