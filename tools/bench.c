@@ -2,7 +2,7 @@
  * beside a NumPy/SciPy script computing the same cells (tools/bench_numpy.py), and the least time
  * an RK4 step could take on this machine.
  *
- *   coexist-bench [--quick] [--json FILE] [--numpy-cells K]
+ *   coexist-bench [--quick | --kernels] [--json FILE] [--numpy-cells K]
  *
  * 1. Kernels: drive (open loop, no Gram) and probe (closed loop) steps of an N-node network with
  *    each tanh evaluation (libm, SLEEF, our own expm1-based one), in ns per node per RK4 stage;
@@ -19,7 +19,8 @@
  *    cells per core-second (process CPU time, the fair measure on a shared machine); then K
  *    sample cells spread over the grid by the NumPy script, and the ratio of CPU seconds per
  *    cell.
- * --quick: a reduced sweep and shorter runs for a smoke run of well under a minute. Timings are
+ * --quick: a reduced sweep and shorter runs for a smoke run of well under a minute. --kernels:
+ * parts 1 and 2 only, at both sizes (about a minute). Timings are
  * wall clock on a shared machine: compare ratios measured in one run, not absolute figures.
  */
 #define _POSIX_C_SOURCE 200809L
@@ -60,6 +61,7 @@ static const char *const sweep_fmt =
 
 typedef struct options {
     int quick;
+    int kernels_only;
     const char *json;
     int numpy_cells;
 } options;
@@ -69,13 +71,19 @@ typedef struct options {
 static const char *const tanh_names[CX_BENCH_TANHS] = {"libm", "vector", "expm1"};
 #define CX_BENCH_FAST CX_TANH_EXPM1
 
+/* Block sizes of the batched probe figures. */
+#define CX_BENCH_NB 5
+static const int bench_nb[CX_BENCH_NB] = {1, 2, 4, 8, 16};
+
 typedef struct kernel_figs {
     cx_idx n;
     double drive[CX_BENCH_TANHS]; /* ns per node per RK4 stage, by enum cx_tanh */
     double probe[CX_BENCH_TANHS];
-    double probe_batch[4];          /* fast tanh, B = 1, 2, 4, 8 runs per block, per node per run */
-    double tanh_ns[CX_BENCH_TANHS]; /* ns per element */
-    double dgemm;                   /* GFLOP/s */
+    double probe_batch[CX_BENCH_NB];  /* fast tanh, B runs per block (bench_nb), per node per run */
+    double probe_batch4[CX_BENCH_NB]; /* the same with the vectors capped at 4 lanes (AVX2) */
+    int lanes;                        /* the widest vector the kernels use here */
+    double tanh_ns[CX_BENCH_TANHS];   /* ns per element */
+    double dgemm;                     /* GFLOP/s */
     double dsyrk_block, dsyrk_long;
     double gram;                     /* GFLOP/s through cx_res_drive */
     double drive_bound, probe_bound; /* ns per node per stage */
@@ -232,33 +240,37 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         kf->probe[mode] = bp;
     }
     {
-        /* batched probes: B runs from the same start, per node per run per stage */
-        const int bs[4] = {1, 2, 4, 8};
+        /* batched probes: B runs from the same start, per node per run per stage, at the widest
+         * vector and again capped at 4 lanes */
         double *rb = NULL;
-        CX_ALLOC(rb, n * 8);
-        CX_TRY(cx_res_ws_set_batch(ws, 8));
+        CX_ALLOC(rb, n * 16);
+        CX_TRY(cx_res_ws_set_batch(ws, 16));
         res.tanh_mode = CX_BENCH_FAST;
-        for (int q = 0; q < 4; q++) {
-            double *rs[8];
-            cx_idx sd[8], sa[8];
+        kf->lanes = cx_res_simd_lanes();
+        for (int q = 0; q < 2 * CX_BENCH_NB && rc == CX_OK; q++) {
+            const int nb = bench_nb[q % CX_BENCH_NB];
+            double *rs[16];
+            cx_idx sd[16], sa[16];
+            const double *wo[16];
             double best = INFINITY;
-            for (int rep = 0; rep < 3; rep++) {
-                for (int b = 0; b < bs[q]; b++) {
+            const int old = cx_res_simd_limit(q < CX_BENCH_NB ? 8 : 4);
+            for (int rep = 0; rep < 3 && rc == CX_OK; rep++) {
+                for (int b = 0; b < nb; b++) {
                     rs[b] = rb + b * n;
+                    wo[b] = wout;
                     for (cx_idx i = 0; i < n; i++)
                         rs[b][i] = 0.01 * (double)((i * 7 + b) % 13);
                 }
                 double t0 = cx_clock_mono();
-                const double *wo[8] = {wout, wout, wout, wout, wout, wout, wout, wout};
-                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, NULL, NULL, bs[q], rs,
-                                        NULL, sd, sa);
-                best = fmin(best, (cx_clock_mono() - t0) * per / (double)bs[q]);
-                if (rc != CX_OK)
-                    break;
+                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, NULL, NULL, nb, rs, NULL,
+                                        sd, sa);
+                best = fmin(best, (cx_clock_mono() - t0) * per / (double)nb);
             }
-            kf->probe_batch[q] = best;
-            if (rc != CX_OK)
-                break;
+            cx_res_simd_limit(old);
+            if (q < CX_BENCH_NB)
+                kf->probe_batch[q] = best;
+            else
+                kf->probe_batch4[q - CX_BENCH_NB] = best;
         }
         free(rb);
         CX_TRY(rc);
@@ -448,8 +460,8 @@ done:
 static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const sweep_figs *sf,
                          const sweep_figs *base, int quick)
 {
-    const double per_cell = sf->total / (double)sf->cells;
-    const double cpu_per_cell = sf->cpu / (double)sf->cells;
+    const double per_cell = sf != NULL ? sf->total / (double)sf->cells : NAN;
+    const double cpu_per_cell = sf != NULL ? sf->cpu / (double)sf->cells : NAN;
     if (json) {
         fprintf(f, "{\n  \"quick\": %s,\n  \"kernels\": [\n", quick ? "true" : "false");
         for (int i = 0; i < nk; i++) {
@@ -463,15 +475,26 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                     fprintf(f, "%s\"%s\": %.3f", mode ? ", " : "", tanh_names[mode], figs[q][mode]);
                 fprintf(f, "}");
             }
+            fprintf(f, ", \"vector_lanes\": %d", k->lanes);
+            const char *bw[2] = {"probe_batched_ns_node_run_stage", "probe_batched_4_lanes"};
+            for (int h = 0; h < 2; h++) {
+                fprintf(f, ", \"%s\": {", bw[h]);
+                for (int q = 0; q < CX_BENCH_NB; q++)
+                    fprintf(f, "%s\"%d\": %.3f", q ? ", " : "", bench_nb[q],
+                            h ? k->probe_batch4[q] : k->probe_batch[q]);
+                fprintf(f, "}");
+            }
             fprintf(f,
-                    ", \"fast_tanh\": \"%s\", \"probe_batched_ns_node_run_stage\": {\"1\": %.3f, "
-                    "\"2\": %.3f, \"4\": %.3f, \"8\": %.3f}, \"dgemm_gflops\": %.2f, "
+                    ", \"fast_tanh\": \"%s\", \"dgemm_gflops\": %.2f, "
                     "\"dsyrk_gflops\": {\"block_512\": %.2f, \"block_2048\": %.2f}, "
                     "\"gram_gflops\": %.2f, \"bound_ns_node_stage\": {\"drive\": %.3f, "
                     "\"probe\": %.3f}}%s\n",
-                    tanh_names[CX_BENCH_FAST], k->probe_batch[0], k->probe_batch[1],
-                    k->probe_batch[2], k->probe_batch[3], k->dgemm, k->dsyrk_block, k->dsyrk_long,
-                    k->gram, k->drive_bound, k->probe_bound, i + 1 < nk ? "," : "");
+                    tanh_names[CX_BENCH_FAST], k->dgemm, k->dsyrk_block, k->dsyrk_long, k->gram,
+                    k->drive_bound, k->probe_bound, i + 1 < nk ? "," : "");
+        }
+        if (sf == NULL) {
+            fprintf(f, "  ]\n}\n");
+            return;
         }
         fprintf(f,
                 "  ],\n  \"sweep\": {\"cells\": %lld, \"seconds\": {\"network\": %.3f, \"drive\": "
@@ -501,9 +524,14 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
         for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
             fprintf(f, "| %lld | %s | %.2f | %.2f | %.2f |\n", (long long)k->n, tanh_names[mode],
                     k->drive[mode], k->probe[mode], k->tanh_ns[mode]);
-        fprintf(f, "| %lld | %s, batched B = 1/2/4/8 | | %.2f / %.2f / %.2f / %.2f | |\n",
-                (long long)k->n, tanh_names[CX_BENCH_FAST], k->probe_batch[0], k->probe_batch[1],
-                k->probe_batch[2], k->probe_batch[3]);
+        for (int h = 0; h < 2; h++) {
+            const double *pb = h ? k->probe_batch4 : k->probe_batch;
+            fprintf(f, "| %lld | %s, batched B = 1/2/4/8/16, %d lanes | | ", (long long)k->n,
+                    tanh_names[CX_BENCH_FAST], h ? 4 : k->lanes);
+            for (int q = 0; q < CX_BENCH_NB; q++)
+                fprintf(f, "%s%.2f", q ? " / " : "", pb[q]);
+            fprintf(f, " | |\n");
+        }
         fprintf(f,
                 "| %lld | bound | %.2f (achieved/bound %.2f) | %.2f (achieved/bound %.2f) | "
                 "dgemm %.1f GFLOP/s |\n",
@@ -515,6 +543,8 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 (long long)k->n, k->gram, 100.0 * k->gram / k->dsyrk_long, k->dsyrk_long,
                 k->dsyrk_block);
     }
+    if (sf == NULL)
+        return;
     fprintf(f, "\nsweep: %lld cells, %lld runs (%lld ended early on a fixed point)\n",
             (long long)sf->cells, (long long)sf->runs, (long long)sf->settled);
     fprintf(f, "outcomes:");
@@ -548,16 +578,19 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
 
 int main(int argc, char **argv)
 {
-    options o = {0, NULL, -1};
+    options o = {0, 0, NULL, -1};
     for (int i = 1; i < argc; i++) {
         if (strcmp(argv[i], "--quick") == 0) {
             o.quick = 1;
+        } else if (strcmp(argv[i], "--kernels") == 0) {
+            o.kernels_only = 1;
         } else if (strcmp(argv[i], "--json") == 0 && i + 1 < argc) {
             o.json = argv[++i];
         } else if (strcmp(argv[i], "--numpy-cells") == 0 && i + 1 < argc) {
             o.numpy_cells = atoi(argv[++i]);
         } else {
-            fprintf(stderr, "usage: coexist-bench [--quick] [--json FILE] [--numpy-cells K]\n");
+            fprintf(stderr,
+                    "usage: coexist-bench [--quick | --kernels] [--json FILE] [--numpy-cells K]\n");
             return 2;
         }
     }
@@ -576,6 +609,16 @@ int main(int argc, char **argv)
     const cx_idx sizes[2] = {1000, 500};
     for (int i = 0; i < nk; i++)
         CX_TRY(kernels(sizes[i], o.quick, &kf[i]));
+    if (o.kernels_only) {
+        print_report(stdout, 0, kf, nk, NULL, NULL, o.quick);
+        if (o.json != NULL) {
+            FILE *f = fopen(o.json, "w");
+            CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
+            print_report(f, 1, kf, nk, NULL, NULL, o.quick);
+            CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
+        }
+        goto done;
+    }
     CX_TRY(make_study(&o, tanh_names[CX_BENCH_FAST], "true", &fast));
     CX_TRY(make_study(&o, "libm", "false", &plain));
     cx_idx cells = cx_study_cells(fast);
