@@ -261,9 +261,11 @@ static double *pconst_of(const cx_res_ws *ws, int w)
 
 /* One closed-loop step of the block: cx_res_closed_step() for every column. With lanes > 0 the
  * fused kernel at that vector width takes it (fused.c): the block is nb = lanes or 2 lanes
- * columns wide and the readouts are packed in ws->bpack. */
+ * columns wide and the readouts are packed in ws->bpack. With keep_prev the new state is written
+ * into ws->bprev's buffer and the two swapped, so that ws->bprev holds the state before the step
+ * without a copy (the early-stop test compares the two). */
 static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                              double dt, int nb, int lanes, double *y)
+                              double dt, int nb, int lanes, int keep_prev, double *y)
 {
     double ys[CX_MAX_RUNS * CX_MAX_DIM], yt[CX_MAX_RUNS * CX_MAX_DIM];
     double *r = ws->bx;
@@ -278,16 +280,28 @@ static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const doub
     } while (0)
     if (res->model == CX_MODEL_DISCRETE) {
         CX_STAGE(0, r, y, 0.0, NULL, NULL, ws->bxa, ys);
-        memcpy(r, ws->bxa, (size_t)(ws->n * nb) * sizeof *r);
         memcpy(y, ys, (size_t)(nb * ws->dim) * sizeof *y);
+        if (keep_prev) {
+            double *old = ws->bprev;
+            ws->bprev = ws->bx;
+            ws->bx = ws->bxa;
+            ws->bxa = old;
+        } else {
+            memcpy(r, ws->bxa, (size_t)(ws->n * nb) * sizeof *r);
+        }
         return;
     }
     const double h2 = 0.5 * dt, h6 = dt / 6.0;
     CX_STAGE(1, r, y, h2, ws->bacc, r, ws->bxa, ys);
     CX_STAGE(2, ws->bxa, ys, h2, ws->bacc, r, ws->bxb, yt);
     CX_STAGE(3, ws->bxb, yt, dt, ws->bacc, r, ws->bxa, ys);
-    CX_STAGE(4, ws->bxa, ys, h6, ws->bacc, r, r, y);
+    CX_STAGE(4, ws->bxa, ys, h6, ws->bacc, r, keep_prev ? ws->bprev : r, y);
 #undef CX_STAGE
+    if (keep_prev) {
+        double *fresh = ws->bprev;
+        ws->bprev = ws->bx;
+        ws->bx = fresh;
+    }
 }
 
 static int outside(const double *y, int dim, const double *lo, const double *hi)
@@ -396,7 +410,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     if (lanes)
         cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, wcol, dt, w, lanes, y);
+        closed_step_block(ws, res, wcol, dt, w, lanes, window > 0, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
@@ -408,17 +422,19 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                 steps_done[b] = i;
                 keep[c] = 0;
             } else if (window > 0) {
+                /* ws->bprev holds the state before the step (closed_step_block); the state test
+                 * is needed only when the outputs stood still */
                 double dr = 0.0, dy = 0.0;
-                for (cx_idx k = 0; k < n; k++) {
-                    const double e = fabs(ws->bx[k * w + c] - ws->bprev[k * w + c]);
-                    dr = e > dr ? e : dr;
-                    ws->bprev[k * w + c] = ws->bx[k * w + c];
-                }
                 for (int j = 0; j < dim; j++) {
                     const double e = fabs(yc[j] - yprev[c * dim + j]);
                     dy = e > dy ? e : dy;
                     yprev[c * dim + j] = yc[j];
                 }
+                if (dy <= settle->output_step)
+                    for (cx_idx k = 0; k < n; k++) {
+                        const double e = fabs(ws->bx[k * w + c] - ws->bprev[k * w + c]);
+                        dr = e > dr ? e : dr;
+                    }
                 still[c] = dr <= settle->state_step && dy <= settle->output_step ? still[c] + 1 : 0;
                 if (still[c] >= window && i < nsteps) {
                     settled_at[b] = i;

@@ -59,14 +59,27 @@ int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, double
     /* Sample spacing of u: dt/2 for RK4 (start, midpoint, end of each step), dt for the map. */
     const cx_idx per = res->model == CX_MODEL_CONTINUOUS ? 2 : 1;
     const cx_idx steps = washout + train;
+    /* in position order (rows.c) the state lives in ws->rows_x and goes back to node order for
+     * the features and at the end */
+    const int rows = cx_res_open_rows_ok(ws, res);
+    double *x = r;
+    if (rows) {
+        x = ws->rows_x;
+        cx_res_rows_gather(ws, r, x);
+    }
     cx_idx cnt = 0;
     for (cx_idx i = 0; i < steps; i++) {
         const double *u0 = u + per * i * dim;
         const double *uh = u + (per * i + 1) * dim;
         const double *u1 = u + per * (i + 1) * dim;
-        cx_res_open_step(ws, res, dt, u0, uh, u1, r);
+        if (rows)
+            cx_res_open_step_rows(ws, res, dt, u0, uh, u1, x);
+        else
+            cx_res_open_step(ws, res, dt, u0, uh, u1, r);
         if (i < washout || (i - washout) % stride != 0)
             continue;
+        if (rows)
+            cx_res_rows_scatter(ws, x, r);
         cx_res_features_of(ws, r, ws->qblk + cnt * nfeat);
         memcpy(ws->ublk + cnt * dim, u1, (size_t)dim * sizeof *u1);
         if (++cnt == ws->block) {
@@ -75,6 +88,8 @@ int cx_res_drive(cx_res_ws *ws, const cx_reservoir *res, const double *u, double
         }
     }
     gram_flush(ws, cnt, g, c);
+    if (rows)
+        cx_res_rows_scatter(ws, x, r);
 done:
     return rc;
 }

@@ -108,6 +108,9 @@ void cx_res_ws_free(cx_res_ws **pws)
     if (pws == NULL || *pws == NULL)
         return;
     cx_res_ws *ws = *pws;
+    free(ws->rows_x);
+    free(ws->rows_pcol);
+    free(ws->rows_pos);
     free(ws->rows_val);
     free(ws->rows_col);
     free(ws->rows_win);

@@ -33,6 +33,9 @@ struct cx_res_ws {
     cx_idx rows_cap; /* entries allocated in rows_col and rows_val */
     cx_idx *rows_node, *rows_len, *rows_incol, *rows_off, *rows_col;
     double *rows_bias, *rows_inw, *rows_win, *rows_val;
+    cx_idx *rows_pos;  /* n: the position of node i */
+    cx_idx *rows_pcol; /* rows_col as positions: the columns of the drive in position order */
+    double *rows_x;    /* n: a state in node order, unpermuted from the drive's */
     /* Gram accumulation block: q columns (nfeat x block, column-major) and u columns. */
     cx_idx block;
     double *qblk;
@@ -60,6 +63,17 @@ int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res);
 /* s_i = b_i + (sigma W_in u)_i + (M x)_i of one run for the nodes rows_node[q], q < the
  * returned count (rows_full, or 0 without a layout), with the bits of the scalar pass (rows.c). */
 cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u, double *s);
+
+/* The drive of one run in position order (rows.c): usable when cx_res_open_rows_ok (a row
+ * layout and our own tanh). cx_res_rows_gather lays a state out by position (p[q] =
+ * r[rows_node[q]]), cx_res_rows_scatter puts it back; cx_res_open_step_rows is
+ * cx_res_open_step() on a state in position order, with the same bits node by node: the
+ * pre-activations, tanh and stage update of the full chunks in one vector pass. */
+int cx_res_open_rows_ok(const cx_res_ws *ws, const cx_reservoir *res);
+void cx_res_rows_gather(const cx_res_ws *ws, const double *r, double *p);
+void cx_res_rows_scatter(const cx_res_ws *ws, const double *p, double *r);
+void cx_res_open_step_rows(cx_res_ws *ws, const cx_reservoir *res, double dt, const double *u0,
+                           const double *uh, const double *u1, double *p);
 
 /* x_i <- tanh(x_i), i < n, the way `mode` (enum cx_tanh) says; see tanh.c. */
 void cx_res_tanh(int mode, double *x, cx_idx n);

@@ -25,9 +25,11 @@ static int rows_alloc(cx_res_ws *ws)
 {
     int rc = CX_OK;
     const cx_idx n = ws->n;
-    cx_idx *node = NULL, *len = NULL, *incol = NULL, *offs = NULL;
-    double *bias = NULL, *inw = NULL, *win = NULL;
+    cx_idx *node = NULL, *pos = NULL, *len = NULL, *incol = NULL, *offs = NULL;
+    double *bias = NULL, *inw = NULL, *win = NULL, *xbuf = NULL;
     CX_ALLOC(node, n);
+    CX_ALLOC(pos, n);
+    CX_ALLOC(xbuf, n);
     CX_ALLOC(len, n);
     CX_ALLOC(incol, n);
     CX_ALLOC(offs, n / 4 + 1);
@@ -35,6 +37,8 @@ static int rows_alloc(cx_res_ws *ws)
     CX_ALLOC(inw, n);
     CX_ALLOC(win, n * ws->dim);
     ws->rows_node = node;
+    ws->rows_pos = pos;
+    ws->rows_x = xbuf;
     ws->rows_len = len;
     ws->rows_incol = incol;
     ws->rows_off = offs;
@@ -43,13 +47,39 @@ static int rows_alloc(cx_res_ws *ws)
     ws->rows_win = win;
     return CX_OK;
 done:
+    free(xbuf);
     free(win);
     free(inw);
     free(bias);
     free(offs);
     free(incol);
     free(len);
+    free(pos);
     free(node);
+    return rc;
+}
+
+/* Room for `need` entries of the layout, all or nothing. */
+static int rows_entries(cx_res_ws *ws, cx_idx need)
+{
+    int rc = CX_OK;
+    cx_idx *col = NULL, *pcol = NULL;
+    double *val = NULL;
+    CX_ALLOC(col, need);
+    CX_ALLOC(pcol, need);
+    CX_ALLOC(val, need);
+    free(ws->rows_col);
+    free(ws->rows_pcol);
+    free(ws->rows_val);
+    ws->rows_col = col;
+    ws->rows_pcol = pcol;
+    ws->rows_val = val;
+    ws->rows_cap = need;
+    return CX_OK;
+done:
+    free(val);
+    free(pcol);
+    free(col);
     return rc;
 }
 
@@ -80,23 +110,16 @@ int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res)
     for (cx_idx i = 0; i < n; i++)
         ws->rows_node[start[maxlen - (m->rowptr[i + 1] - m->rowptr[i])]++] = i;
     free(start);
+    for (cx_idx q = 0; q < n; q++)
+        ws->rows_pos[ws->rows_node[q]] = q;
     const cx_idx full = n / lanes * lanes;
     cx_idx need = 0;
     for (cx_idx q = 0; q < full; q += lanes) {
         const cx_idx i = ws->rows_node[q];
         need += (m->rowptr[i + 1] - m->rowptr[i]) * lanes;
     }
-    if (need > ws->rows_cap) {
-        cx_idx *col = NULL;
-        double *val = NULL;
-        CX_ALLOC(col, need);
-        CX_ALLOC(val, need);
-        free(ws->rows_col);
-        free(ws->rows_val);
-        ws->rows_col = col;
-        ws->rows_val = val;
-        ws->rows_cap = need;
-    }
+    if (need > ws->rows_cap)
+        CX_TRY(rows_entries(ws, need));
     cx_idx off = 0;
     for (cx_idx q = 0; q < n; q++) {
         const cx_idx i = ws->rows_node[q];
@@ -118,6 +141,8 @@ int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res)
                 const int in = k < ws->rows_len[q0 + l];
                 /* a short row's lane reads x_i and adds nothing (masked) */
                 ws->rows_col[off + k * lanes + l] = in ? m->col[m->rowptr[i] + k] : i;
+                ws->rows_pcol[off + k * lanes + l] =
+                    ws->rows_pos[ws->rows_col[off + k * lanes + l]];
                 ws->rows_val[off + k * lanes + l] = in ? m->val[m->rowptr[i] + k] : 0.0;
             }
         off += kmax * lanes;
@@ -153,6 +178,78 @@ cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u,
     return ws->rows_full;
 }
 
+/* open_rows() for the positions past the full chunks, one at a time: node rows_node[q]'s
+ * operations of preact() and rk4_stage()/map_pass() in model.c; the few tanh values take the
+ * portable path of tanh.c, whose bits are the vector loops'. */
+static void open_tail(const cx_res_ws *ws, const cx_reservoir *res, int stage, const double *x,
+                      const double *u, double c0, double *acc, double *r, double *xout)
+{
+    const cx_idx n = ws->n, q0 = ws->rows_full;
+    const cx_csr *m = res->m;
+    double t[8];
+    for (cx_idx q = q0; q < n; q++) {
+        const cx_idx i = ws->rows_node[q];
+        double s = ws->bias[i];
+        if (ws->onehot) {
+            s += ws->inw[i] * u[ws->incol[i]];
+        } else {
+            for (int j = 0; j < ws->dim; j++)
+                s += ws->win[i * ws->dim + j] * u[j];
+        }
+        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++)
+            s += m->val[p] * x[ws->rows_pos[m->col[p]]];
+        t[q - q0] = s;
+    }
+    cx_res_tanh(res->tanh_mode, t, n - q0);
+    for (cx_idx q = q0; q < n; q++) {
+        const double tq = t[q - q0];
+        if (stage == 0) {
+            xout[q] = (1.0 - res->leak) * x[q] + res->leak * tq;
+            continue;
+        }
+        const double k = res->rate * (tq - x[q]);
+        if (stage == 1) {
+            acc[q] = k;
+            xout[q] = r[q] + c0 * k;
+        } else if (stage < 4) {
+            acc[q] += 2.0 * k;
+            xout[q] = r[q] + c0 * k;
+        } else {
+            xout[q] = r[q] + c0 * (acc[q] + k);
+        }
+    }
+}
+
+static void open_stage(const cx_res_ws *ws, const cx_reservoir *res, int stage, const double *x,
+                       const double *u, double c0, double *acc, double *r, double *xout)
+{
+    if (ws->rows_lanes == 8)
+        open_rows_avx512(ws, res, stage, x, u, c0, acc, r, xout);
+    else
+        open_rows_avx2(ws, res, stage, x, u, c0, acc, r, xout);
+    open_tail(ws, res, stage, x, u, c0, acc, r, xout);
+}
+
+int cx_res_open_rows_ok(const cx_res_ws *ws, const cx_reservoir *res)
+{
+    return ws->rows_lanes >= 4 && res->tanh_mode == CX_TANH_EXPM1;
+}
+
+void cx_res_open_step_rows(cx_res_ws *ws, const cx_reservoir *res, double dt, const double *u0,
+                           const double *uh, const double *u1, double *p)
+{
+    if (res->model == CX_MODEL_DISCRETE) {
+        open_stage(ws, res, 0, p, u0, 0.0, NULL, NULL, ws->xa);
+        memcpy(p, ws->xa, (size_t)ws->n * sizeof *p);
+        return;
+    }
+    const double h2 = 0.5 * dt, h6 = dt / 6.0;
+    open_stage(ws, res, 1, p, u0, h2, ws->acc, p, ws->xa);
+    open_stage(ws, res, 2, ws->xa, uh, h2, ws->acc, p, ws->xb);
+    open_stage(ws, res, 3, ws->xb, uh, dt, ws->acc, p, ws->xa);
+    open_stage(ws, res, 4, ws->xa, u1, h6, ws->acc, p, p);
+}
+
 #else
 
 cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u, double *s)
@@ -161,4 +258,28 @@ cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u,
     return 0;
 }
 
+int cx_res_open_rows_ok(const cx_res_ws *ws, const cx_reservoir *res)
+{
+    (void)ws, (void)res;
+    return 0;
+}
+
+void cx_res_open_step_rows(cx_res_ws *ws, const cx_reservoir *res, double dt, const double *u0,
+                           const double *uh, const double *u1, double *p)
+{
+    (void)ws, (void)res, (void)dt, (void)u0, (void)uh, (void)u1, (void)p;
+}
+
 #endif
+
+void cx_res_rows_gather(const cx_res_ws *ws, const double *r, double *p)
+{
+    for (cx_idx q = 0; q < ws->n; q++)
+        p[q] = r[ws->rows_node[q]];
+}
+
+void cx_res_rows_scatter(const cx_res_ws *ws, const double *p, double *r)
+{
+    for (cx_idx q = 0; q < ws->n; q++)
+        r[ws->rows_node[q]] = p[q];
+}

@@ -1,6 +1,8 @@
-/* coexist: the vector pre-activation pass of one run (rows.c), a template over the vector width:
- * include it after simd.h with CX_SIMD_LANES set; it defines preact_rows_avx2 (4 lanes) or
- * preact_rows_avx512 (8 lanes). Private header, included once per width by rows.c. */
+/* coexist: the vector passes of one run over the row layout (rows.c), a template over the vector
+ * width: include it after simd.h with CX_SIMD_LANES set; it defines preact_rows_avx2 and
+ * open_rows_avx2 (4 lanes) or preact_rows_avx512 and open_rows_avx512 (8 lanes). Private header,
+ * included once per width by rows.c. */
+#include "reservoir/tanh_expm1_k.h"
 
 /* s_i for the nodes of the full chunks of the layout; lane l of chunk c is node rows_node[cL+l],
  * with exactly the operations of preact() in model.c. */
@@ -42,3 +44,72 @@ __attribute__((target(CXV_TARGET))) static void CXV_FN(preact_rows)(const cx_res
             s[ws->rows_node[q0 + l]] = out[l];
     }
 }
+
+/* One open-loop stage of one run with every vector in position order (x[q] is node
+ * rows_node[q]'s value): the pre-activations of CX_ROWS_GROUP chunks, their tanh (ours, the
+ * operations of tanh_expm1_k.h) and the stage update of model.c's rk4_stage() (stage 1..4) or
+ * map_pass() (stage 0), for the positions of the full chunks. xout is never x. */
+#define CX_ROWS_GROUP 4
+__attribute__((target(CXV_TARGET))) static void
+CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res, int stage,
+                  const double *restrict x, const double *restrict u, double c0,
+                  double *restrict acc, double *r, double *xout)
+{
+    const int L = CX_SIMD_LANES;
+    const int dim = ws->dim;
+    const cx_idx nc = ws->rows_full / L;
+    const cx_idx *restrict col = ws->rows_pcol;
+    const double *restrict val = ws->rows_val;
+    const CXV gamma = CXV_SET1(res->rate), cc = CXV_SET1(c0), two = CXV_SET1(2.0);
+    const CXV leak = CXV_SET1(res->leak), keep = CXV_SET1(1.0 - res->leak);
+    for (cx_idx c0g = 0; c0g < nc; c0g += CX_ROWS_GROUP) {
+        const int g = nc - c0g < CX_ROWS_GROUP ? (int)(nc - c0g) : CX_ROWS_GROUP;
+        CXV a[CX_ROWS_GROUP];
+        for (int h = 0; h < g; h++) {
+            const cx_idx c = c0g + h, q0 = c * L;
+            a[h] = CXV_LOAD(ws->rows_bias + q0);
+            if (ws->onehot) {
+                a[h] = CXV_ADD(
+                    a[h], CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_GATHER(u, ws->rows_incol + q0)));
+            } else {
+                const double *w = ws->rows_win + c * dim * L;
+                for (int j = 0; j < dim; j++)
+                    a[h] = CXV_ADD(a[h], CXV_MUL(CXV_LOAD(w + j * L), CXV_SET1(u[j])));
+            }
+            const cx_idx kmax = ws->rows_len[q0], kmin = ws->rows_len[q0 + L - 1];
+            const cx_idx *cl = col + ws->rows_off[c];
+            const double *vc = val + ws->rows_off[c];
+            cx_idx k = 0;
+            for (; k < kmin; k++)
+                a[h] = CXV_ADD(a[h], CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cl + k * L)));
+            for (; k < kmax; k++)
+                a[h] = CXV_ADD_IF(a[h], CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cl + k * L)),
+                                  ws->rows_len + q0, k);
+        }
+        if (g == CX_ROWS_GROUP)
+            CXV_FN(cx_tanh_expm1_k)(a, CX_ROWS_GROUP);
+        else
+            for (int h = 0; h < g; h++)
+                CXV_FN(cx_tanh_expm1_k)(a + h, 1);
+        for (int h = 0; h < g; h++) {
+            const cx_idx o = (c0g + h) * L;
+            const CXV t = a[h], xi = CXV_LOAD(x + o);
+            if (stage == 0) {
+                CXV_STORE(xout + o, CXV_ADD(CXV_MUL(keep, xi), CXV_MUL(leak, t)));
+                continue;
+            }
+            const CXV k = CXV_MUL(gamma, CXV_SUB(t, xi));
+            const CXV ri = CXV_LOAD(r + o);
+            if (stage == 1) {
+                CXV_STORE(acc + o, k);
+                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, k)));
+            } else if (stage < 4) {
+                CXV_STORE(acc + o, CXV_ADD(CXV_LOAD(acc + o), CXV_MUL(two, k)));
+                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, k)));
+            } else {
+                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, CXV_ADD(CXV_LOAD(acc + o), k))));
+            }
+        }
+    }
+}
+#undef CX_ROWS_GROUP
