@@ -4,44 +4,50 @@
  * included once per width by rows.c. */
 #include "reservoir/tanh_expm1_k.h"
 
-/* s_i for the nodes of the full chunks of the layout; lane l of chunk c is node rows_node[cL+l],
- * with exactly the operations of preact() in model.c. */
+/* The pre-activations of chunk c, lane l being the node at position cL + l: exactly the
+ * operations of preact() in model.c. col: the columns of the entries (rows_col, node numbers, or
+ * rows_pcol, positions, whichever order x is in). */
+__attribute__((always_inline, target(CXV_TARGET))) static inline CXV
+CXV_FN(chunk_preact)(const cx_res_ws *restrict ws, cx_idx c, const cx_idx *restrict col,
+                     const double *restrict x, const double *restrict u)
+{
+    const int L = CX_SIMD_LANES;
+    const cx_idx q0 = c * L;
+    CXV a = CXV_LOAD(ws->rows_bias + q0);
+    if (ws->onehot) {
+        a = CXV_ADD(a, CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_GATHER(u, ws->rows_incol + q0)));
+    } else {
+        const double *w = ws->rows_win + c * ws->dim * L;
+        for (int j = 0; j < ws->dim; j++)
+            a = CXV_ADD(a, CXV_MUL(CXV_LOAD(w + j * L), CXV_SET1(u[j])));
+    }
+    /* rows sorted by descending length: every lane has the entries below the last lane's
+     * length, the lanes beyond are masked */
+    const cx_idx kmax = ws->rows_len[q0], kmin = ws->rows_len[q0 + L - 1];
+    const cx_idx *cc = col + ws->rows_off[c];
+    const double *vc = ws->rows_val + ws->rows_off[c];
+    cx_idx k = 0;
+    for (; k < kmin; k++)
+        a = CXV_ADD(a, CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cc + k * L)));
+    for (; k < kmax; k++)
+        a = CXV_ADD_IF(a, CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cc + k * L)),
+                       ws->rows_len + q0, k);
+    return a;
+}
+
+/* s_i for the nodes of the full chunks of the layout (x, s in node order). */
 __attribute__((target(CXV_TARGET))) static void CXV_FN(preact_rows)(const cx_res_ws *restrict ws,
                                                                     const double *restrict x,
                                                                     const double *restrict u,
                                                                     double *restrict s)
 {
     const int L = CX_SIMD_LANES;
-    const int dim = ws->dim;
     const cx_idx nc = ws->rows_full / L;
-    const cx_idx *restrict col = ws->rows_col;
-    const double *restrict val = ws->rows_val;
     for (cx_idx c = 0; c < nc; c++) {
-        const cx_idx q0 = c * L;
-        CXV a = CXV_LOAD(ws->rows_bias + q0);
-        if (ws->onehot) {
-            a = CXV_ADD(a,
-                        CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_GATHER(u, ws->rows_incol + q0)));
-        } else {
-            const double *w = ws->rows_win + c * dim * L;
-            for (int j = 0; j < dim; j++)
-                a = CXV_ADD(a, CXV_MUL(CXV_LOAD(w + j * L), CXV_SET1(u[j])));
-        }
-        /* rows sorted by descending length: every lane has the entries below the last lane's
-         * length, the lanes beyond are masked */
-        const cx_idx kmax = ws->rows_len[q0], kmin = ws->rows_len[q0 + L - 1];
-        const cx_idx *cc = col + ws->rows_off[c];
-        const double *vc = val + ws->rows_off[c];
-        cx_idx k = 0;
-        for (; k < kmin; k++)
-            a = CXV_ADD(a, CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cc + k * L)));
-        for (; k < kmax; k++)
-            a = CXV_ADD_IF(a, CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cc + k * L)),
-                           ws->rows_len + q0, k);
         double out[CX_SIMD_LANES];
-        CXV_STORE(out, a);
+        CXV_STORE(out, CXV_FN(chunk_preact)(ws, c, ws->rows_col, x, u));
         for (int l = 0; l < L; l++)
-            s[ws->rows_node[q0 + l]] = out[l];
+            s[ws->rows_node[c * L + l]] = out[l];
     }
 }
 
@@ -56,36 +62,14 @@ CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res
                   double *restrict acc, double *r, double *xout)
 {
     const int L = CX_SIMD_LANES;
-    const int dim = ws->dim;
     const cx_idx nc = ws->rows_full / L;
-    const cx_idx *restrict col = ws->rows_pcol;
-    const double *restrict val = ws->rows_val;
     const CXV gamma = CXV_SET1(res->rate), cc = CXV_SET1(c0), two = CXV_SET1(2.0);
     const CXV leak = CXV_SET1(res->leak), keep = CXV_SET1(1.0 - res->leak);
     for (cx_idx c0g = 0; c0g < nc; c0g += CX_ROWS_GROUP) {
         const int g = nc - c0g < CX_ROWS_GROUP ? (int)(nc - c0g) : CX_ROWS_GROUP;
         CXV a[CX_ROWS_GROUP];
-        for (int h = 0; h < g; h++) {
-            const cx_idx c = c0g + h, q0 = c * L;
-            a[h] = CXV_LOAD(ws->rows_bias + q0);
-            if (ws->onehot) {
-                a[h] = CXV_ADD(
-                    a[h], CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_GATHER(u, ws->rows_incol + q0)));
-            } else {
-                const double *w = ws->rows_win + c * dim * L;
-                for (int j = 0; j < dim; j++)
-                    a[h] = CXV_ADD(a[h], CXV_MUL(CXV_LOAD(w + j * L), CXV_SET1(u[j])));
-            }
-            const cx_idx kmax = ws->rows_len[q0], kmin = ws->rows_len[q0 + L - 1];
-            const cx_idx *cl = col + ws->rows_off[c];
-            const double *vc = val + ws->rows_off[c];
-            cx_idx k = 0;
-            for (; k < kmin; k++)
-                a[h] = CXV_ADD(a[h], CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cl + k * L)));
-            for (; k < kmax; k++)
-                a[h] = CXV_ADD_IF(a[h], CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cl + k * L)),
-                                  ws->rows_len + q0, k);
-        }
+        for (int h = 0; h < g; h++)
+            a[h] = CXV_FN(chunk_preact)(ws, c0g + h, ws->rows_pcol, x, u);
         if (g == CX_ROWS_GROUP)
             CXV_FN(cx_tanh_expm1_k)(a, CX_ROWS_GROUP);
         else
