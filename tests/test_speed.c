@@ -378,8 +378,8 @@ static void toy_free(toy *t)
 /* The vector passes over the row layout (rows.c: the pre-activations of one closed-loop run, and
  * the whole open-loop stage of the drive in position order) on rows of irregular length: a drive
  * and a closed-loop run of one reservoir give the same bits with vectors of 8, 4 and 1 lanes (1:
- * the scalar passes of model.c alone). Rows of 0 to 9 entries, n not a multiple of 8, one-per-node and dense W_in,
- * both models, and a strong network whose runs saturate. */
+ * the scalar passes of model.c alone). Rows of 0 to 9 entries, n not a multiple of 8, one-per-node
+ * and dense W_in, both models, and a strong network whose runs saturate. */
 static void test_rows(void)
 {
     const cx_idx n = 103, steps = 300;
