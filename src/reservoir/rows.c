@@ -118,8 +118,8 @@ int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res)
         const cx_idx i = ws->rows_node[q];
         need += (m->rowptr[i + 1] - m->rowptr[i]) * lanes;
     }
-    if (need > ws->rows_cap)
-        CX_TRY(rows_entries(ws, need));
+    if (need > ws->rows_cap || ws->rows_col == NULL)
+        CX_TRY(rows_entries(ws, need > 0 ? need : 1)); /* never NULL, even for an empty M */
     cx_idx off = 0;
     for (cx_idx q = 0; q < n; q++) {
         const cx_idx i = ws->rows_node[q];
