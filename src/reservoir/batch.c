@@ -158,40 +158,6 @@ CX_INLINE void readout_block(const double *const *w_out, cx_idx n, const int dim
         y[q] = acc[q];
 }
 
-/* The stage update over the whole block: elementwise, so it runs over n * nb contiguous values
- * whatever nb (the same operations as rk4_stage()/map_pass() of model.c, value by value). */
-static void update_block(const cx_reservoir *restrict res, cx_idx len, int stage,
-                         const double *restrict x, const double *restrict s, double c0,
-                         double *restrict acc, double *r, double *xout)
-{
-    if (stage == 0) {
-        const double a = res->leak, keep = 1.0 - a;
-        for (cx_idx o = 0; o < len; o++)
-            xout[o] = keep * x[o] + a * s[o];
-        return;
-    }
-    const double gamma = res->rate;
-    if (stage == 1) {
-        for (cx_idx o = 0; o < len; o++) {
-            const double k = gamma * (s[o] - x[o]);
-            acc[o] = k;
-            xout[o] = r[o] + c0 * k;
-        }
-    } else if (stage < 4) {
-        for (cx_idx o = 0; o < len; o++) {
-            const double k = gamma * (s[o] - x[o]);
-            acc[o] += 2.0 * k;
-            xout[o] = r[o] + c0 * k;
-        }
-    } else {
-        /* xout is r itself here, x a separate buffer */
-        for (cx_idx o = 0; o < len; o++) {
-            const double k = gamma * (s[o] - x[o]);
-            xout[o] = r[o] + c0 * (acc[o] + k);
-        }
-    }
-}
-
 #define CX_FOR_WIDTHS(CALL)                                                                        \
     switch (nb) {                                                                                  \
     case 1:                                                                                        \
@@ -237,7 +203,7 @@ static void stage_block(const cx_res_ws *restrict ws, const cx_reservoir *restri
     CX_FOR_WIDTHS(CX_PRE)
 #undef CX_PRE
     cx_res_tanh(res->tanh_mode, s, n * nb);
-    update_block(res, n * nb, stage, x, s, c0, acc, r, xout);
+    cx_res_stage_update(res, n * nb, stage, x, s, c0, acc, r, xout);
 #define CX_READ(w)                                                                                 \
     do {                                                                                           \
         if (dim == 2)                                                                              \

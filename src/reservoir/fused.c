@@ -11,8 +11,8 @@
  * model.c) and node i's share of every run's readout. Every run's arithmetic is the scalar
  * kernels' (model.c), operation for operation and in the same order, with no fused multiply-add
  * outside the tanh (which uses them on every path), so a run's bits are the same as with one run
- * at a time, at either vector width; tests/test_batch.c checks it for B = 1..16, both models and
- * both widths.
+ * at a time, at either vector width; tests/test_speed.c (test_batch) checks it for B = 1..16, both
+ * models and both widths.
  *
  * The block's width w is one or two vectors, L or 2 L columns for L lanes (batch.c pads it with
  * copies of a run); the readouts of the w columns are packed node by node (cx_res_pack_readouts)

@@ -292,6 +292,38 @@ void cx_res_readout(const cx_reservoir *res, const double *w_out, const double *
     readout_pass(w_out, res->n, res->dim, res->features, r, y);
 }
 
+void cx_res_stage_update(const cx_reservoir *restrict res, cx_idx len, int stage,
+                         const double *restrict x, const double *restrict s, double c0,
+                         double *restrict acc, double *r, double *xout)
+{
+    if (stage == 0) {
+        const double a = res->leak, keep = 1.0 - a;
+        for (cx_idx o = 0; o < len; o++)
+            xout[o] = keep * x[o] + a * s[o];
+        return;
+    }
+    const double gamma = res->rate;
+    if (stage == 1) {
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            acc[o] = k;
+            xout[o] = r[o] + c0 * k;
+        }
+    } else if (stage < 4) {
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            acc[o] += 2.0 * k;
+            xout[o] = r[o] + c0 * k;
+        }
+    } else {
+        /* xout is r itself here, x a separate buffer */
+        for (cx_idx o = 0; o < len; o++) {
+            const double k = gamma * (s[o] - x[o]);
+            xout[o] = r[o] + c0 * (acc[o] + k);
+        }
+    }
+}
+
 /* One RK4 stage: k = f(x; u); stage < 4 writes xout = r + c k and adds w k to acc (stage 1 sets
  * it); stage 4 finishes the step, r += c (acc + k), in place (x is then a separate buffer, so
  * the mat-vec never reads a value this pass has overwritten). With w_out, y receives
@@ -302,29 +334,11 @@ static void rk4_stage(const cx_res_ws *restrict ws, const cx_reservoir *restrict
                       double *restrict y)
 {
     const cx_idx n = ws->n;
-    const double gamma = res->rate;
     const cx_csr *m = res->m;
     double *restrict s = ws->pre;
     preact_pass(ws, m, x, u, s);
     cx_res_tanh(res->tanh_mode, s, n);
-    if (stage == 1) {
-        for (cx_idx i = 0; i < n; i++) {
-            const double k = gamma * (s[i] - x[i]);
-            acc[i] = k;
-            xout[i] = r[i] + c * k;
-        }
-    } else if (stage < 4) {
-        for (cx_idx i = 0; i < n; i++) {
-            const double k = gamma * (s[i] - x[i]);
-            acc[i] += 2.0 * k;
-            xout[i] = r[i] + c * k;
-        }
-    } else {
-        for (cx_idx i = 0; i < n; i++) {
-            const double k = gamma * (s[i] - x[i]);
-            xout[i] = r[i] + c * (acc[i] + k);
-        }
-    }
+    cx_res_stage_update(res, n, stage, x, s, c, acc, r, xout);
     if (w_out != NULL)
         readout_pass(w_out, n, ws->dim, ws->features, xout, y);
 }
@@ -335,14 +349,11 @@ static void map_pass(const cx_res_ws *restrict ws, const cx_reservoir *restrict 
                      const double *restrict w_out, double *restrict y)
 {
     const cx_idx n = ws->n;
-    const double a = res->leak;
-    const double keep = 1.0 - a;
     const cx_csr *m = res->m;
     double *restrict s = ws->pre;
     preact_pass(ws, m, x, u, s);
     cx_res_tanh(res->tanh_mode, s, n);
-    for (cx_idx i = 0; i < n; i++)
-        xout[i] = keep * x[i] + a * s[i];
+    cx_res_stage_update(res, n, 0, x, s, 0.0, NULL, NULL, xout);
     if (w_out != NULL)
         readout_pass(w_out, n, ws->dim, ws->features, xout, y);
 }

@@ -95,6 +95,12 @@ void cx_res_stage_fused(const cx_res_ws *ws, const cx_reservoir *res, int lanes,
                         const double *x, const double *u, double c0, double *acc, double *r,
                         double *xout, const double *pack, const double *pconst, double *y);
 
+/* The stage update, elementwise over len values: stage 0 the leaky map, xout = (1 - a) x + a s;
+ * stage 1..4 the RK4 stage with k = gamma (s - x) (model.c). Shared by the one-run kernels, the
+ * generic block kernel and the tail of the drive's vector pass, so that all run one sequence. */
+void cx_res_stage_update(const cx_reservoir *res, cx_idx len, int stage, const double *x,
+                         const double *s, double c0, double *acc, double *r, double *xout);
+
 /* q(r) into q (nfeat). */
 void cx_res_features_of(const cx_res_ws *ws, const double *r, double *q /* out */);
 

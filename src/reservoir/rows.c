@@ -201,23 +201,8 @@ static void open_tail(const cx_res_ws *ws, const cx_reservoir *res, int stage, c
         t[q - q0] = s;
     }
     cx_res_tanh(res->tanh_mode, t, n - q0);
-    for (cx_idx q = q0; q < n; q++) {
-        const double tq = t[q - q0];
-        if (stage == 0) {
-            xout[q] = (1.0 - res->leak) * x[q] + res->leak * tq;
-            continue;
-        }
-        const double k = res->rate * (tq - x[q]);
-        if (stage == 1) {
-            acc[q] = k;
-            xout[q] = r[q] + c0 * k;
-        } else if (stage < 4) {
-            acc[q] += 2.0 * k;
-            xout[q] = r[q] + c0 * k;
-        } else {
-            xout[q] = r[q] + c0 * (acc[q] + k);
-        }
-    }
+    cx_res_stage_update(res, n - q0, stage, x + q0, t, c0, acc != NULL ? acc + q0 : NULL, r + q0,
+                        xout + q0);
 }
 
 static void open_stage(const cx_res_ws *ws, const cx_reservoir *res, int stage, const double *x,
