@@ -421,15 +421,17 @@ static void test_rows(void)
         for (cx_idx t = 0; t <= 2 * steps; t++)
             for (int j = 0; j < dim; j++)
                 u[t * dim + j] = sin(0.03 * (double)t + (double)j);
-        double rd[3][103], rp[3][103], yp[3][(300 + 1) * 3];
+        double rd[4][103], rp[4][103], yp[4][(300 + 1) * 3];
         cx_res_ws *ws = NULL;
         if (cx_res_ws_alloc(&ws, n, dim, CX_FEAT_LINEAR_SQUARES) != CX_OK) {
             same = 0;
             continue;
         }
-        const int lims[3] = {8, 4, 1};
-        for (int w = 0; w < 3; w++) {
+        /* 8 lanes with either gather (the gather instruction, then scalar loads), 4, none */
+        const int lims[4] = {8, 8, 4, 1}, hw[4] = {1, 0, 0, 0};
+        for (int w = 0; w < 4; w++) {
             const int old = cx_res_simd_limit(lims[w]);
+            const int old_gather = cx_res_gather_force(hw[w]);
             cx_idx done_steps = 0;
             memset(rd[w], 0, sizeof rd[w]);
             if (cx_res_drive(ws, &res, u, 0.02, steps, 0, 1, rd[w], NULL, NULL) != CX_OK)
@@ -439,9 +441,10 @@ static void test_rows(void)
             if (cx_res_probe(ws, &res, wout, 0.02, steps, NULL, NULL, rp[w], yp[w], &done_steps) !=
                 CX_OK)
                 same = 0;
+            cx_res_gather_force(old_gather);
             cx_res_simd_limit(old);
         }
-        for (int w = 1; w < 3; w++)
+        for (int w = 1; w < 4; w++)
             same &= memcmp(rd[w], rd[0], sizeof rd[0]) == 0 &&
                     memcmp(rp[w], rp[0], sizeof rp[0]) == 0 &&
                     memcmp(yp[w], yp[0], sizeof yp[0]) == 0;
@@ -450,8 +453,9 @@ static void test_rows(void)
     }
     char d[120];
     snprintf(d, sizeof d, "%d cases, widest vector here %d lanes", cases, cx_res_simd_lanes());
-    cx_test_true("vector pre-activations on rows of 0..9 entries: drive and closed loop at 8, 4 "
-                 "and 1 lanes give the same bits (both models, one-per-node and dense W_in)",
+    cx_test_true("vector pre-activations on rows of 0..9 entries: drive and closed loop at 8 "
+                 "lanes (gather instruction or scalar loads), 4 and 1 lane give the same bits "
+                 "(both models, one-per-node and dense W_in)",
                  same && cases == 4, d, SRC_OURS);
 }
 

@@ -82,6 +82,8 @@ typedef struct kernel_figs {
     double probe_batch[CX_BENCH_NB];  /* fast tanh, B runs per block (bench_nb), per node per run */
     double probe_batch4[CX_BENCH_NB]; /* the same with the vectors capped at 4 lanes (AVX2) */
     int lanes;                        /* the widest vector the kernels use here */
+    int hwgather;                     /* 8 lanes: the gather instruction chosen (rows.c) */
+    double drive_gather[2];           /* fast tanh, drive with scalar loads / the instruction */
     double tanh_ns[CX_BENCH_TANHS];   /* ns per element */
     double dgemm;                     /* GFLOP/s */
     double dsyrk_block, dsyrk_long;
@@ -238,6 +240,24 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
         }
         kf->drive[mode] = bd;
         kf->probe[mode] = bp;
+    }
+    kf->hwgather = cx_res_gather_hw();
+    kf->drive_gather[0] = kf->drive_gather[1] = NAN;
+    for (int hw = 0; hw < 2 && cx_res_simd_lanes() == 8; hw++) {
+        /* the one-run drive with each 8-lane gather, alternating */
+        res.tanh_mode = CX_BENCH_FAST;
+        double bd = INFINITY;
+        for (int rep = 0; rep < 3; rep++) {
+            const int old = cx_res_gather_force(hw);
+            for (cx_idx i = 0; i < n; i++)
+                r[i] = 0.0;
+            double t0 = cx_clock_mono();
+            rc = cx_res_drive(ws, &res, u, 0.01, steps, 0, 1, r, NULL, NULL);
+            bd = fmin(bd, (cx_clock_mono() - t0) * per);
+            cx_res_gather_force(old);
+            CX_TRY(rc);
+        }
+        kf->drive_gather[hw] = bd;
     }
     {
         /* batched probes: B runs from the same start, per node per run per stage, at the widest
@@ -475,7 +495,11 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                     fprintf(f, "%s\"%s\": %.3f", mode ? ", " : "", tanh_names[mode], figs[q][mode]);
                 fprintf(f, "}");
             }
-            fprintf(f, ", \"vector_lanes\": %d", k->lanes);
+            fprintf(f,
+                    ", \"vector_lanes\": %d, \"gather_instruction\": %s, "
+                    "\"drive_ns_node_stage_by_gather\": {\"loads\": %.3f, \"instruction\": %.3f}",
+                    k->lanes, k->hwgather ? "true" : "false", k->drive_gather[0],
+                    k->drive_gather[1]);
             const char *bw[2] = {"probe_batched_ns_node_run_stage", "probe_batched_4_lanes"};
             for (int h = 0; h < 2; h++) {
                 fprintf(f, ", \"%s\": {", bw[h]);
@@ -532,6 +556,12 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 fprintf(f, "%s%.2f", q ? " / " : "", pb[q]);
             fprintf(f, " | |\n");
         }
+        if (k->lanes == 8)
+            fprintf(f,
+                    "| %lld | expm1, 8-lane gathers by scalar loads / by the instruction | %.2f / "
+                    "%.2f (chosen here: %s) | | |\n",
+                    (long long)k->n, k->drive_gather[0], k->drive_gather[1],
+                    k->hwgather ? "instruction" : "loads");
         fprintf(f,
                 "| %lld | bound | %.2f (achieved/bound %.2f) | %.2f (achieved/bound %.2f) | "
                 "dgemm %.1f GFLOP/s |\n",

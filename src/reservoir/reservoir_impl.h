@@ -29,6 +29,7 @@ struct cx_res_ws {
      * of rows_lanes (0: no layout, the scalar pass), chunk c's k-th entries at
      * rows_off[c] + k L + lane. */
     int rows_lanes;
+    int rows_hwgather; /* 8 lanes: gather by the instruction (cx_res_gather_hw) */
     cx_idx rows_full;
     cx_idx rows_cap; /* entries allocated in rows_col and rows_val */
     cx_idx *rows_node, *rows_len, *rows_incol, *rows_off, *rows_col;
@@ -59,6 +60,12 @@ int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
 
 /* Build the layout of the vector pre-activation pass for res (rows.c); called by cx_res_meet. */
 int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res);
+
+/* Whether the 8-lane row passes gather with the gather instruction rather than scalar loads,
+ * measured once per process (rows.c); cx_res_gather_force(0 or 1) fixes the choice, -1 asks for
+ * a new measurement, and returns the previous setting. The bits are the same either way. */
+int cx_res_gather_hw(void);
+int cx_res_gather_force(int mode);
 
 /* s_i = b_i + (sigma W_in u)_i + (M x)_i of one run for the nodes rows_node[q], q < the
  * returned count (rows_full, or 0 without a layout), with the bits of the scalar pass (rows.c). */

@@ -1,7 +1,7 @@
 /* coexist: the vector passes of one run over the row layout (rows.c), a template over the vector
  * width: include it after simd.h with CX_SIMD_LANES set; it defines preact_rows_avx2 and
- * open_rows_avx2 (4 lanes) or preact_rows_avx512 and open_rows_avx512 (8 lanes). Private header,
- * included once per width by rows.c. */
+ * open_rows_avx2 (4 lanes) or preact_rows_avx512 and open_rows_avx512 (8 lanes; _avx512g with
+ * CX_SIMD_HWGATHER). Private header, included by rows.c once per width and gather. */
 #include "reservoir/tanh_expm1_k.h"
 
 /* The pre-activations of chunk c, lane l being the node at position cL + l: exactly the
@@ -33,6 +33,23 @@ CXV_FN(chunk_preact)(const cx_res_ws *restrict ws, cx_idx c, const cx_idx *restr
         a = CXV_ADD_IF(a, CXV_MUL(CXV_LOAD(vc + k * L), CXV_GATHER(x, cc + k * L)),
                        ws->rows_len + q0, k);
     return a;
+}
+
+/* The sum of x[idx[k]] over k < m (m a multiple of L), L lanes at a time: the gathers alone,
+ * timed by rows.c to choose between the two 8-lane gathers. */
+__attribute__((target(CXV_TARGET), unused)) static double
+CXV_FN(gather_sum)(const double *restrict x, const cx_idx *restrict idx, cx_idx m)
+{
+    CXV a = CXV_ZERO(), b = CXV_ZERO();
+    for (cx_idx k = 0; k + 2 * CX_SIMD_LANES <= m; k += 2 * CX_SIMD_LANES) {
+        a = CXV_ADD(a, CXV_GATHER(x, idx + k));
+        b = CXV_ADD(b, CXV_GATHER(x, idx + k + CX_SIMD_LANES));
+    }
+    double out[CX_SIMD_LANES], sum = 0.0;
+    CXV_STORE(out, CXV_ADD(a, b));
+    for (int l = 0; l < CX_SIMD_LANES; l++)
+        sum += out[l];
+    return sum;
 }
 
 /* s_i for the nodes of the full chunks of the layout (x, s in node order). */

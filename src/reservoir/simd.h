@@ -31,6 +31,7 @@
 /* 2^k from kb = k + 1.5 2^52 (k in its low bits) */
 /* the L values x[c[0]], ..., x[c[L-1]] (a gather by plain loads: measured twice as fast here as
  * the gather instructions) */
+/* four scalar loads: the AVX2 gather instruction measured slower (rows.c) */
 #define CXV_GATHER(x, c) _mm256_set_pd((x)[(c)[3]], (x)[(c)[2]], (x)[(c)[1]], (x)[(c)[0]])
 /* a + b in the lanes l with len[l] > k, a elsewhere */
 #define CXV_ADD_IF(a, b, len, k)                                                                   \
@@ -44,9 +45,13 @@
             _mm256_set1_epi64x(1023)),                                                             \
         52))
 #elif CX_SIMD_LANES == 8
-#define CXV                 __m512d
-#define CXV_TARGET          "avx512f,avx2,fma"
-#define CXV_FN(name)        name##_avx512
+#define CXV        __m512d
+#define CXV_TARGET "avx512f,avx2,fma"
+#if defined(CX_SIMD_HWGATHER)
+#define CXV_FN(name) name##_avx512g
+#else
+#define CXV_FN(name) name##_avx512
+#endif
 #define CXV_SET1(a)         _mm512_set1_pd(a)
 #define CXV_ZERO()          _mm512_setzero_pd()
 #define CXV_LOAD(p)         _mm512_loadu_pd(p)
@@ -65,9 +70,16 @@
     _mm512_castsi512_pd(                                                                           \
         _mm512_or_epi64(_mm512_castpd_si512(a),                                                    \
                         _mm512_and_epi64(_mm512_castpd_si512(b), _mm512_set1_epi64(INT64_MIN))))
+/* x[c[l]] in lane l: eight scalar loads, or with CX_SIMD_HWGATHER the gather instruction, which
+ * is faster on some CPUs and slower on others (rows.c measures which); the same loads either
+ * way, so the same bits */
+#if defined(CX_SIMD_HWGATHER)
+#define CXV_GATHER(x, c) _mm512_i64gather_pd(_mm512_loadu_si512((const void *)(c)), (x), 8)
+#else
 #define CXV_GATHER(x, c)                                                                           \
     _mm512_set_pd((x)[(c)[7]], (x)[(c)[6]], (x)[(c)[5]], (x)[(c)[4]], (x)[(c)[3]], (x)[(c)[2]],    \
                   (x)[(c)[1]], (x)[(c)[0]])
+#endif
 #define CXV_ADD_IF(a, b, len, k)                                                                   \
     _mm512_mask_add_pd(                                                                            \
         a, _mm512_cmpgt_epi64_mask(_mm512_loadu_si512((const void *)(len)), _mm512_set1_epi64(k)), \
