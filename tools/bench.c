@@ -22,6 +22,7 @@
  * --quick: a reduced sweep and shorter runs for a smoke run of well under a minute. --kernels:
  * parts 1 and 2 only, at both sizes (about a minute). Timings are
  * wall clock on a shared machine: compare ratios measured in one run, not absolute figures.
+ * Everything runs on one core: BLAS on one thread, here and in the NumPy script.
  */
 #define _POSIX_C_SOURCE 200809L
 #include <cblas.h>
@@ -38,6 +39,9 @@
 #include "coexist/study.h"
 #include "cell/cell_impl.h"
 #include "reservoir/reservoir_impl.h"
+
+/* OpenBLAS's own declaration (cblas.h of some versions lacks it) */
+void openblas_set_num_threads(int num_threads);
 
 #ifndef CX_SOURCE_DIR
 #define CX_SOURCE_DIR "."
@@ -438,7 +442,8 @@ static int run_numpy(const cx_study *s, const options *o, int k, sweep_figs *sf)
     CX_TRY(cx_study_bind(s, 0, &p));
     size_t used = (size_t)snprintf(
         cmd, cap,
-        "/usr/bin/python3 %s/tools/bench_numpy.py '{\"mean_degree\": %g, \"input_scaling\": %g, "
+        "OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1 /usr/bin/python3 %s/tools/bench_numpy.py "
+        "'{\"mean_degree\": %g, \"input_scaling\": %g, "
         "\"rate\": %g, \"dt\": %g, \"washout\": %g, \"length\": %g, \"ridge\": %g, \"horizon\": "
         "%g, \"tail\": %g, \"bound\": %g, \"seed\": 4127, \"tasks\": ["
         "{\"centre\": [-0.9, 0.1], \"radius\": 1.0, \"speed\": 2.1}, "
@@ -626,6 +631,9 @@ int main(int argc, char **argv)
     }
     if (o.numpy_cells < 0)
         o.numpy_cells = o.quick ? 1 : 2;
+    /* one core: BLAS on one thread here and in the NumPy script, so that the dgemm rate of the
+     * bound is one core's and the CPU seconds count no idle BLAS threads */
+    openblas_set_num_threads(1);
     int rc = CX_OK;
     kernel_figs kf[2];
     sweep_figs sf, base;
