@@ -9,13 +9,14 @@
  * rows_pcol, positions, whichever order x is in). */
 __attribute__((always_inline, target(CXV_TARGET))) static inline CXV
 CXV_FN(chunk_preact)(const cx_res_ws *restrict ws, cx_idx c, const cx_idx *restrict col,
-                     const double *restrict x, const double *restrict u)
+                     const double *restrict x, const double *restrict u, CXV utab)
 {
     const int L = CX_SIMD_LANES;
     const cx_idx q0 = c * L;
     CXV a = CXV_LOAD(ws->rows_bias + q0);
     if (ws->onehot) {
-        a = CXV_ADD(a, CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_GATHER(u, ws->rows_incol + q0)));
+        a = CXV_ADD(a,
+                    CXV_MUL(CXV_LOAD(ws->rows_inw + q0), CXV_LOOKUP(utab, u, ws->rows_incol + q0)));
     } else {
         const double *w = ws->rows_win + c * ws->dim * L;
         for (int j = 0; j < ws->dim; j++)
@@ -60,9 +61,10 @@ __attribute__((target(CXV_TARGET))) static void CXV_FN(preact_rows)(const cx_res
 {
     const int L = CX_SIMD_LANES;
     const cx_idx nc = ws->rows_full / L;
+    const CXV utab = CXV_TABLE(u, ws->dim);
     for (cx_idx c = 0; c < nc; c++) {
         double out[CX_SIMD_LANES];
-        CXV_STORE(out, CXV_FN(chunk_preact)(ws, c, ws->rows_col, x, u));
+        CXV_STORE(out, CXV_FN(chunk_preact)(ws, c, ws->rows_col, x, u, utab));
         for (int l = 0; l < L; l++)
             s[ws->rows_node[c * L + l]] = out[l];
     }
@@ -82,11 +84,12 @@ CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res
     const cx_idx nc = ws->rows_full / L;
     const CXV gamma = CXV_SET1(res->rate), cc = CXV_SET1(c0), two = CXV_SET1(2.0);
     const CXV leak = CXV_SET1(res->leak), keep = CXV_SET1(1.0 - res->leak);
+    const CXV utab = CXV_TABLE(u, ws->dim);
     for (cx_idx c0g = 0; c0g < nc; c0g += CX_ROWS_GROUP) {
         const int g = nc - c0g < CX_ROWS_GROUP ? (int)(nc - c0g) : CX_ROWS_GROUP;
         CXV a[CX_ROWS_GROUP];
         for (int h = 0; h < g; h++)
-            a[h] = CXV_FN(chunk_preact)(ws, c0g + h, ws->rows_pcol, x, u);
+            a[h] = CXV_FN(chunk_preact)(ws, c0g + h, ws->rows_pcol, x, u, utab);
         if (g == CX_ROWS_GROUP)
             CXV_FN(cx_tanh_expm1_k)(a, CX_ROWS_GROUP);
         else

@@ -33,6 +33,10 @@
  * the gather instructions) */
 /* four scalar loads: the AVX2 gather instruction measured slower (rows.c) */
 #define CXV_GATHER(x, c) _mm256_set_pd((x)[(c)[3]], (x)[(c)[2]], (x)[(c)[1]], (x)[(c)[0]])
+/* u[c[l]] in lane l for a short table u (at most CX_MAX_DIM entries), held as tab = CXV_TABLE(u,
+ * d): at 4 lanes simply the loads */
+#define CXV_TABLE(u, d)       _mm256_setzero_pd()
+#define CXV_LOOKUP(tab, u, c) ((void)(tab), CXV_GATHER(u, c))
 /* a + b in the lanes l with len[l] > k, a elsewhere */
 #define CXV_ADD_IF(a, b, len, k)                                                                   \
     _mm256_blendv_pd(a, _mm256_add_pd(a, b),                                                       \
@@ -80,6 +84,10 @@
     _mm512_set_pd((x)[(c)[7]], (x)[(c)[6]], (x)[(c)[5]], (x)[(c)[4]], (x)[(c)[3]], (x)[(c)[2]],    \
                   (x)[(c)[1]], (x)[(c)[0]])
 #endif
+/* u[c[l]] in lane l for a table u of d <= 8 entries, held in one register tab = CXV_TABLE(u, d):
+ * one permute instead of a gather */
+#define CXV_TABLE(u, d)       _mm512_maskz_loadu_pd((__mmask8)((1u << (d)) - 1u), u)
+#define CXV_LOOKUP(tab, u, c) _mm512_permutexvar_pd(_mm512_loadu_si512((const void *)(c)), tab)
 #define CXV_ADD_IF(a, b, len, k)                                                                   \
     _mm512_mask_add_pd(                                                                            \
         a, _mm512_cmpgt_epi64_mask(_mm512_loadu_si512((const void *)(len)), _mm512_set1_epi64(k)), \
@@ -114,4 +122,6 @@
 #undef CXV_POW2
 #undef CXV_GATHER
 #undef CXV_ADD_IF
+#undef CXV_TABLE
+#undef CXV_LOOKUP
 #endif
