@@ -305,10 +305,14 @@ static void relayout(double *blk, cx_idx n, int w_old, int nb_old, const int *ke
  * or 0 for the generic one, and the block's width *w: nb padded to one or two vectors for the
  * fused kernel, else nb. Measured (tools/bench.c): for one or two runs the padding costs more
  * than the fused kernel saves (about 1.4x slower for one run, even for two); up to four runs
- * take one AVX2 vector. */
+ * take one AVX2 vector; two runs take the pair kernel (w = 2, fused.c). */
 static int block_kernel(int most, int nb, int *w)
 {
     int lanes = 0;
+    if (most >= 4 && nb == 2) {
+        *w = 2;
+        return most;
+    }
     if (most >= 4 && nb >= 3)
         lanes = most == 8 && nb > 4 ? 8 : 4;
     if (lanes && nb > 2 * lanes)

@@ -17,7 +17,9 @@
  * The block's width w is one or two vectors, L or 2 L columns for L lanes (batch.c pads it with
  * copies of a run); the readouts of the w columns are packed node by node (cx_res_pack_readouts)
  * so that the weights of L runs for one node and one output coordinate are one load. The kernel
- * is written once (fused_kernel.h over simd.h) and compiled for each width.
+ * is written once (fused_kernel.h over simd.h) and compiled for each width. A block of two runs
+ * (w = 2) takes its own kernel (pair_kernel.h), which puts L/2 nodes rather than L runs in a
+ * register for the tanh and the update.
  */
 #include <string.h>
 
@@ -53,12 +55,14 @@ void cx_res_pack_readouts(cx_idx n, int dim, int features, int w, const double *
 #define CX_SIMD_LANES 4
 #include "reservoir/simd.h"
 #include "reservoir/fused_kernel.h"
+#include "reservoir/pair_kernel.h"
 #undef CX_SIMD_LANES
 #include "reservoir/simd.h"
 
 #define CX_SIMD_LANES 8
 #include "reservoir/simd.h"
 #include "reservoir/fused_kernel.h"
+#include "reservoir/pair_kernel.h"
 #undef CX_SIMD_LANES
 #include "reservoir/simd.h"
 
@@ -66,7 +70,11 @@ void cx_res_stage_fused(const cx_res_ws *ws, const cx_reservoir *res, int lanes,
                         const double *x, const double *u, double c0, double *acc, double *r,
                         double *xout, const double *pack, const double *pconst, double *y)
 {
-    if (lanes == 8)
+    if (w == 2 && lanes == 8)
+        pair_stage_avx512(ws, res, stage, x, u, c0, acc, r, xout, pack, pconst, y);
+    else if (w == 2)
+        pair_stage_avx2(ws, res, stage, x, u, c0, acc, r, xout, pack, pconst, y);
+    else if (lanes == 8)
         stage_fused_avx512(ws, res, w, stage, x, u, c0, acc, r, xout, pack, pconst, y);
     else
         stage_fused_avx2(ws, res, w, stage, x, u, c0, acc, r, xout, pack, pconst, y);
