@@ -212,20 +212,7 @@ void cx_res_features_of(const cx_res_ws *ws, const double *restrict r, double *r
 static inline double preact(const cx_res_ws *restrict ws, const cx_csr *restrict m,
                             const double *restrict x, const double *restrict u, cx_idx i)
 {
-    double s = ws->bias[i];
-    if (ws->onehot) {
-        s += ws->inw[i] * u[ws->incol[i]];
-    } else {
-        const double *w = ws->win + i * ws->dim;
-        for (int j = 0; j < ws->dim; j++)
-            s += w[j] * u[j];
-    }
-    const cx_idx *restrict col = m->col;
-    const double *restrict val = m->val;
-    const cx_idx end = m->rowptr[i + 1];
-    for (cx_idx p = m->rowptr[i]; p < end; p++)
-        s += val[p] * x[col[p]];
-    return s;
+    return cx_res_preact_node(ws, m, x, NULL, u, i);
 }
 
 /* The pre-activations of all nodes into s: the vector pass over the chunks of the row layout

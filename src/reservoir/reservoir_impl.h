@@ -61,6 +61,33 @@ int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
 /* Build the layout of the vector pre-activation pass for res (rows.c); called by cx_res_meet. */
 int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res);
 
+/* Node i's pre-activation s_i = b_i + (sigma W_in u)_i + sum_j M_ij x_j, in this order (the
+ * entries of row i in storage order): the scalar form every kernel's lanes reproduce. x is in
+ * node order, or with pos != NULL in position order (x[pos[j]] is node j's value). */
+static inline double cx_res_preact_node(const cx_res_ws *restrict ws, const cx_csr *restrict m,
+                                        const double *restrict x, const cx_idx *restrict pos,
+                                        const double *restrict u, cx_idx i)
+{
+    double s = ws->bias[i];
+    if (ws->onehot) {
+        s += ws->inw[i] * u[ws->incol[i]];
+    } else {
+        const double *w = ws->win + i * ws->dim;
+        for (int j = 0; j < ws->dim; j++)
+            s += w[j] * u[j];
+    }
+    const cx_idx *restrict col = m->col;
+    const double *restrict val = m->val;
+    const cx_idx end = m->rowptr[i + 1];
+    if (pos == NULL)
+        for (cx_idx p = m->rowptr[i]; p < end; p++)
+            s += val[p] * x[col[p]];
+    else
+        for (cx_idx p = m->rowptr[i]; p < end; p++)
+            s += val[p] * x[pos[col[p]]];
+    return s;
+}
+
 /* Whether the 8-lane row passes gather with the gather instruction rather than scalar loads,
  * measured once per process (rows.c); cx_res_gather_force(0 or 1) fixes the choice, -1 asks for
  * a new measurement, and returns the previous setting. The bits are the same either way. */

@@ -241,7 +241,7 @@ cx_idx cx_res_preact_rows(const cx_res_ws *ws, const double *x, const double *u,
 }
 
 /* open_rows() for the positions past the full chunks, one at a time: node rows_node[q]'s
- * operations of preact() and rk4_stage()/map_pass() in model.c; the few tanh values take the
+ * operations of cx_res_preact_node() and cx_res_stage_update(); the few tanh values take the
  * portable path of tanh.c, whose bits are the vector loops'. */
 static void open_tail(const cx_res_ws *ws, const cx_reservoir *res, int stage, const double *x,
                       const double *u, double c0, double *acc, double *r, double *xout)
@@ -249,19 +249,8 @@ static void open_tail(const cx_res_ws *ws, const cx_reservoir *res, int stage, c
     const cx_idx n = ws->n, q0 = ws->rows_full;
     const cx_csr *m = res->m;
     double t[8];
-    for (cx_idx q = q0; q < n; q++) {
-        const cx_idx i = ws->rows_node[q];
-        double s = ws->bias[i];
-        if (ws->onehot) {
-            s += ws->inw[i] * u[ws->incol[i]];
-        } else {
-            for (int j = 0; j < ws->dim; j++)
-                s += ws->win[i * ws->dim + j] * u[j];
-        }
-        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++)
-            s += m->val[p] * x[ws->rows_pos[m->col[p]]];
-        t[q - q0] = s;
-    }
+    for (cx_idx q = q0; q < n; q++)
+        t[q - q0] = cx_res_preact_node(ws, m, x, ws->rows_pos, u, ws->rows_node[q]);
     cx_res_tanh(res->tanh_mode, t, n - q0);
     cx_res_stage_update(res, n - q0, stage, x + q0, t, c0, acc != NULL ? acc + q0 : NULL, r + q0,
                         xout + q0);
