@@ -36,9 +36,10 @@ cmake --build "$asan" -j "$(nproc)"
 # MPI_Init, whose dynamically loaded plugins leak memory that LeakSanitizer cannot attribute
 # (no symbols, so no suppression can name it): the bad-input and security tests run with ASan and
 # UBSan but leak checks off. (With the slow unwinder, fast_unwind_on_malloc=0, the stacks become
-# nameable and both tests passed once, but in later runs on the same machine LeakSanitizer's own
-# tracer thread crashed with SIGSEGV at the exit of every `coexist run`, code old and new alike,
-# so leak checking of `run` is left to the fault-injection test, robust_faults.) test_speed (a minute of stepping at -O0 under ASan) and the long
+# nameable and both tests passed, but for a stretch of later runs on the same machine
+# LeakSanitizer's own tracer thread crashed with SIGSEGV at the exit of every `coexist run`, code
+# old and new alike, and then ran clean again: too flaky for CI. Leak checking of `run` is left
+# to the fault-injection test, robust_faults.) test_speed (a minute of stepping at -O0 under ASan) and the long
 # end-to-end tests run in stage 1 only, to keep CI under 20 minutes.
 (cd "$asan" && OPENBLAS_NUM_THREADS=1 \
     ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
