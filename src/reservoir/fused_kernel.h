@@ -3,6 +3,7 @@
  * fused_stage_avx512 (8 lanes) and cx_res_stage_fused_avx2 / _avx512, which take blocks of
  * w = L or 2 L columns. Private header, included once per width by fused.c. */
 #include "reservoir/tanh_expm1_k.h"
+#include "reservoir/update_k.h"
 
 /* One stage for w = L nq (L = CX_SIMD_LANES) columns and a task dimension DIM (a constant where
  * inlined). */
@@ -28,10 +29,6 @@ CXV_FN(fused_stage)(const cx_res_ws *restrict ws, const cx_reservoir *restrict r
     for (int j = 0; j < DIM; j++)
         for (int q = 0; q < nq; q++)
             ya[j][q] = CXV_ZERO();
-    const CXV gamma = CXV_SET1(res->rate);
-    const CXV cc = CXV_SET1(c0);
-    const CXV two = CXV_SET1(2.0);
-    const CXV leak = CXV_SET1(res->leak), keep = CXV_SET1(1.0 - res->leak);
     /* CX_FUSED_CHUNK nodes at a time: their pre-activations, then their tanh four vectors
      * abreast (independent chains side by side, see tanh_expm1.h), then update and readout */
     for (cx_idx i0 = 0; i0 < n; i0 += CX_FUSED_CHUNK) {
@@ -76,25 +73,7 @@ CXV_FN(fused_stage)(const cx_res_ws *restrict ws, const cx_reservoir *restrict r
             const double *wp = pack + i * nsq * DIM * w;
             for (int q = 0; q < nq; q++) {
                 const cx_idx o = i * w + CX_SIMD_LANES * q;
-                const CXV t = s[a * nq + q];
-                const CXV xi = CXV_LOAD(x + o);
-                CXV xo;
-                if (stage == 0) {
-                    xo = CXV_ADD(CXV_MUL(keep, xi), CXV_MUL(leak, t));
-                } else {
-                    const CXV k = CXV_MUL(gamma, CXV_SUB(t, xi));
-                    const CXV ri = CXV_LOAD(r + o);
-                    if (stage == 1) {
-                        CXV_STORE(acc + o, k);
-                        xo = CXV_ADD(ri, CXV_MUL(cc, k));
-                    } else if (stage < 4) {
-                        CXV_STORE(acc + o, CXV_ADD(CXV_LOAD(acc + o), CXV_MUL(two, k)));
-                        xo = CXV_ADD(ri, CXV_MUL(cc, k));
-                    } else {
-                        xo = CXV_ADD(ri, CXV_MUL(cc, CXV_ADD(CXV_LOAD(acc + o), k)));
-                    }
-                }
-                CXV_STORE(xout + o, xo);
+                const CXV xo = CXV_FN(update_k)(res, stage, s[a * nq + q], x, c0, acc, r, xout, o);
                 /* node i's share of the readouts: linear term then square (readout_add) */
                 if (nsq == 1) {
                     for (int j = 0; j < DIM; j++)

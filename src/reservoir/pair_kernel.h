@@ -8,7 +8,8 @@
  * pair, and P = L/2 consecutive nodes are one full register. The per-node parts (pre-activation
  * and readout) work on pairs; the tanh and the stage update, the larger part, on full registers.
  * The readout still runs node by node, so every run's sums keep the scalar order. */
-/* after fused_kernel.h, which brings this width's tanh (tanh_expm1_k.h) */
+/* after fused_kernel.h, which brings this width's tanh (tanh_expm1_k.h) and stage update
+ * (update_k.h) */
 
 #if CX_SIMD_LANES == 4
 /* P pairs into one register, and a register into its P pairs */
@@ -95,32 +96,6 @@ CXV_FN(pair_readout2)(const int nsq, const double *restrict wp, __m128d v, __m25
 #endif
 }
 
-/* The stage update of fused_stage() for one full register of P nodes at o = 2 i0. */
-__attribute__((always_inline, target(CXV_TARGET))) static inline CXV
-CXV_FN(pair_update)(const cx_reservoir *restrict res, int stage, CXV t, const double *restrict x,
-                    double c0, double *restrict acc, const double *r, double *xout, cx_idx o)
-{
-    const CXV xi = CXV_LOAD(x + o);
-    CXV xo;
-    if (stage == 0) {
-        xo = CXV_ADD(CXV_MUL(CXV_SET1(1.0 - res->leak), xi), CXV_MUL(CXV_SET1(res->leak), t));
-    } else {
-        const CXV k = CXV_MUL(CXV_SET1(res->rate), CXV_SUB(t, xi));
-        const CXV ri = CXV_LOAD(r + o), cc = CXV_SET1(c0);
-        if (stage == 1) {
-            CXV_STORE(acc + o, k);
-            xo = CXV_ADD(ri, CXV_MUL(cc, k));
-        } else if (stage < 4) {
-            CXV_STORE(acc + o, CXV_ADD(CXV_LOAD(acc + o), CXV_MUL(CXV_SET1(2.0), k)));
-            xo = CXV_ADD(ri, CXV_MUL(cc, k));
-        } else {
-            xo = CXV_ADD(ri, CXV_MUL(cc, CXV_ADD(CXV_LOAD(acc + o), k)));
-        }
-    }
-    CXV_STORE(xout + o, xo);
-    return xo;
-}
-
 static inline __attribute__((always_inline, target(CXV_TARGET))) void CXV_FN(pair_stage_dim)(
     const cx_res_ws *restrict ws, const cx_reservoir *restrict res, const int DIM, int stage,
     const double *restrict x, const double *restrict u, double c0, double *restrict acc, double *r,
@@ -165,7 +140,7 @@ static inline __attribute__((always_inline, target(CXV_TARGET))) void CXV_FN(pai
         _Pragma("GCC unroll 4") for (int h = 0; h < (G); h++)                                      \
         {                                                                                          \
             const cx_idx ib = i0 + h * P;                                                          \
-            const CXV xo = CXV_FN(pair_update)(res, stage, v[h], x, c0, acc, r, xout, ib * 2);     \
+            const CXV xo = CXV_FN(update_k)(res, stage, v[h], x, c0, acc, r, xout, ib * 2);        \
             __m128d part[P];                                                                       \
             CXP_SPLIT(xo, part);                                                                   \
             _Pragma("GCC unroll 4") for (int a = 0; a < P; a++) CXP_READ(ib + a, part[a]);         \

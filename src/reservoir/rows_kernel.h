@@ -3,6 +3,7 @@
  * open_rows_avx2 (4 lanes) or preact_rows_avx512 and open_rows_avx512 (8 lanes; _avx512g with
  * CX_SIMD_HWGATHER). Private header, included by rows.c once per width and gather. */
 #include "reservoir/tanh_expm1_k.h"
+#include "reservoir/update_k.h"
 
 /* The pre-activations of chunk c, lane l being the node at position cL + l: exactly the
  * operations of preact() in model.c. col: the columns of the entries (rows_col, node numbers, or
@@ -72,8 +73,8 @@ __attribute__((target(CXV_TARGET))) static void CXV_FN(preact_rows)(const cx_res
 
 /* One open-loop stage of one run with every vector in position order (x[q] is node
  * rows_node[q]'s value): the pre-activations of CX_ROWS_GROUP chunks, their tanh (ours, the
- * operations of tanh_expm1_k.h) and the stage update of model.c's rk4_stage() (stage 1..4) or
- * map_pass() (stage 0), for the positions of the full chunks. xout is never x. */
+ * operations of tanh_expm1_k.h) and the stage update (update_k.h, the operations of
+ * cx_res_stage_update), for the positions of the full chunks. xout is never x. */
 #define CX_ROWS_GROUP 4
 __attribute__((target(CXV_TARGET))) static void
 CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res, int stage,
@@ -82,8 +83,6 @@ CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res
 {
     const int L = CX_SIMD_LANES;
     const cx_idx nc = ws->rows_full / L;
-    const CXV gamma = CXV_SET1(res->rate), cc = CXV_SET1(c0), two = CXV_SET1(2.0);
-    const CXV leak = CXV_SET1(res->leak), keep = CXV_SET1(1.0 - res->leak);
     const CXV utab = CXV_TABLE(u, ws->dim);
     for (cx_idx c0g = 0; c0g < nc; c0g += CX_ROWS_GROUP) {
         const int g = nc - c0g < CX_ROWS_GROUP ? (int)(nc - c0g) : CX_ROWS_GROUP;
@@ -95,25 +94,8 @@ CXV_FN(open_rows)(const cx_res_ws *restrict ws, const cx_reservoir *restrict res
         else
             for (int h = 0; h < g; h++)
                 CXV_FN(cx_tanh_expm1_k)(a + h, 1);
-        for (int h = 0; h < g; h++) {
-            const cx_idx o = (c0g + h) * L;
-            const CXV t = a[h], xi = CXV_LOAD(x + o);
-            if (stage == 0) {
-                CXV_STORE(xout + o, CXV_ADD(CXV_MUL(keep, xi), CXV_MUL(leak, t)));
-                continue;
-            }
-            const CXV k = CXV_MUL(gamma, CXV_SUB(t, xi));
-            const CXV ri = CXV_LOAD(r + o);
-            if (stage == 1) {
-                CXV_STORE(acc + o, k);
-                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, k)));
-            } else if (stage < 4) {
-                CXV_STORE(acc + o, CXV_ADD(CXV_LOAD(acc + o), CXV_MUL(two, k)));
-                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, k)));
-            } else {
-                CXV_STORE(xout + o, CXV_ADD(ri, CXV_MUL(cc, CXV_ADD(CXV_LOAD(acc + o), k))));
-            }
-        }
+        for (int h = 0; h < g; h++)
+            (void)CXV_FN(update_k)(res, stage, a[h], x, c0, acc, r, xout, (c0g + h) * L);
     }
 }
 #undef CX_ROWS_GROUP
