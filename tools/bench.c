@@ -20,7 +20,7 @@
  *    sample cells spread over the grid by the NumPy script, and the ratio of CPU seconds per
  *    cell.
  * --quick: a reduced sweep and shorter runs for a smoke run of well under a minute. --kernels:
- * parts 1 and 2 only, at both sizes (about a minute). Timings are
+ * parts 1 and 2 only, at both sizes (15 s to a minute). Timings are
  * wall clock on a shared machine: compare ratios measured in one run, not absolute figures.
  * Everything runs on one core: BLAS on one thread, here and in the NumPy script.
  */

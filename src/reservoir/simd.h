@@ -28,10 +28,8 @@
 #define CXV_ABS(a)          _mm256_andnot_pd(_mm256_set1_pd(-0.0), a)
 /* a with the sign bit of b or-ed in */
 #define CXV_ORSIGN(a, b) _mm256_or_pd(a, _mm256_and_pd(b, _mm256_set1_pd(-0.0)))
-/* 2^k from kb = k + 1.5 2^52 (k in its low bits) */
-/* the L values x[c[0]], ..., x[c[L-1]] (a gather by plain loads: measured twice as fast here as
- * the gather instructions) */
-/* four scalar loads: the AVX2 gather instruction measured slower (rows.c) */
+/* the L values x[c[0]], ..., x[c[L-1]] by four scalar loads: the AVX2 gather instruction measured
+ * slower (rows.c) */
 #define CXV_GATHER(x, c) _mm256_set_pd((x)[(c)[3]], (x)[(c)[2]], (x)[(c)[1]], (x)[(c)[0]])
 /* u[c[l]] in lane l for a short table u (at most CX_MAX_DIM entries), held as tab = CXV_TABLE(u,
  * d): at 4 lanes simply the loads */
@@ -42,6 +40,7 @@
     _mm256_blendv_pd(a, _mm256_add_pd(a, b),                                                       \
                      _mm256_castsi256_pd(_mm256_cmpgt_epi64(                                       \
                          _mm256_loadu_si256((const __m256i *)(len)), _mm256_set1_epi64x(k))))
+/* 2^k from kb = k + 1.5 2^52 (k in its low bits) */
 #define CXV_POW2(kb)                                                                               \
     _mm256_castsi256_pd(_mm256_slli_epi64(                                                         \
         _mm256_add_epi64(                                                                          \
