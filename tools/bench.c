@@ -286,8 +286,7 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
                         rs[b][i] = 0.01 * (double)((i * 7 + b) % 13);
                 }
                 double t0 = cx_clock_mono();
-                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, NULL, NULL, nb, rs, NULL,
-                                        sd, sa);
+                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, nb, rs, NULL, sd, sa);
                 best = fmin(best, (cx_clock_mono() - t0) * per / (double)nb);
             }
             cx_res_simd_limit(old);

@@ -152,17 +152,26 @@ int cx_res_ws_set_batch(cx_res_ws *ws, int nb);
  * results of a run do not depend on it. */
 int cx_res_batch_runs(int tanh_mode);
 
+/* What can end one closed-loop run of a batch before the horizon: the box its outputs must stay
+ * inside (lo, hi: dim values each, either NULL for no bound on that side; a non-finite output
+ * always ends the run) and the fixed-point test (settle.window 0: none). Runs of one cell share
+ * one; runs of different cells in one batch each point at their cell's. */
+typedef struct cx_res_limits {
+    const double *lo, *hi;
+    cx_res_settle settle;
+} cx_res_limits;
+
 /* nruns closed-loop runs of one reservoir advanced together as one n x B block (batch.c). Run b
- * has the readout w_out[b] (runs may share one, or each have its own, as the cells of a blend
- * axis do), starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim, or
- * y_out / y_out[b] NULL), steps_done[b] and settled_at[b] exactly as cx_res_probe_settle would
- * for that run alone with w_out[b], bit for bit, whatever nruns and whichever runs share the
- * block. nruns <= the size given to cx_res_ws_set_batch. Not collective. */
+ * has the readout w_out[b] and the limits lim[b] (runs may share them, or each have their own,
+ * as the cells of a blend or task axis do; lim NULL: no box, no early stop), starts from r[b]
+ * (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim, or y_out / y_out[b] NULL),
+ * steps_done[b] and settled_at[b] exactly as cx_res_probe_settle would for that run alone with
+ * w_out[b], lim[b]->lo, lim[b]->hi and &lim[b]->settle, bit for bit, whatever nruns and whichever
+ * runs share the block. nruns <= the size given to cx_res_ws_set_batch. Not collective. */
 int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                       double dt, cx_idx nsteps, const double *lo, const double *hi,
-                       const cx_res_settle *settle, int nruns, double *const *r,
-                       double *const *y_out /* out */, cx_idx *steps_done /* out */,
-                       cx_idx *settled_at /* out */);
+                       double dt, cx_idx nsteps, const cx_res_limits *const *lim, int nruns,
+                       double *const *r, double *const *y_out /* out */,
+                       cx_idx *steps_done /* out */, cx_idx *settled_at /* out */);
 
 /* Drive with a constant input point p for nsteps (for "drive-point" random starts). */
 int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *p, double dt,

@@ -270,19 +270,6 @@ static void closed_step_block(cx_res_ws *ws, const cx_reservoir *res, const doub
     }
 }
 
-static int outside(const double *y, int dim, const double *lo, const double *hi)
-{
-    for (int j = 0; j < dim; j++) {
-        if (!isfinite(y[j]))
-            return 1;
-        if (lo != NULL && y[j] < lo[j])
-            return 1;
-        if (hi != NULL && y[j] > hi[j])
-            return 1;
-    }
-    return 0;
-}
-
 /* Keep the columns c < nb_old with keep[c] != 0 of an n x w_old block and lay them out w_new
  * wide (w_new <= w_old), the columns past the kept ones filled with copies of the first kept
  * column (the fused kernel's padding: computed, never reported). Row by row through a copy of
@@ -322,9 +309,9 @@ static int block_kernel(int most, int nb, int *w)
 }
 
 int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                       double dt, cx_idx nsteps, const double *lo, const double *hi,
-                       const cx_res_settle *settle, int nruns, double *const *r,
-                       double *const *y_out, cx_idx *steps_done, cx_idx *settled_at)
+                       double dt, cx_idx nsteps, const cx_res_limits *const *lim, int nruns,
+                       double *const *r, double *const *y_out, cx_idx *steps_done,
+                       cx_idx *settled_at)
 {
     int rc = CX_OK;
     CX_TRY(cx_res_meet(ws, res));
@@ -336,12 +323,20 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                ws->batch_cap);
     CX_REQUIRE(res->model == CX_MODEL_DISCRETE || dt > 0.0, CX_ERR_INVALID,
                "batch probe: time step %g", dt);
-    CX_REQUIRE(settle == NULL ||
-                   (settle->window >= 0 && settle->state_step >= 0.0 && settle->output_step >= 0.0),
-               CX_ERR_INVALID, "batch probe: negative early-stop window or tolerance");
+    /* the limits of each run (none: a box without sides and no early stop) */
+    static const cx_res_limits none = {NULL, NULL, {0, 0.0, 0.0}};
+    const cx_res_limits *lr[CX_MAX_RUNS];
+    int any_settle = 0;
+    for (int b = 0; b < nruns; b++) {
+        lr[b] = lim != NULL && lim[b] != NULL ? lim[b] : &none;
+        const cx_res_settle *st = &lr[b]->settle;
+        CX_REQUIRE(st->window >= 0 && st->state_step >= 0.0 && st->output_step >= 0.0,
+                   CX_ERR_INVALID, "batch probe: run %d: negative early-stop window or tolerance",
+                   b);
+        any_settle |= st->window > 0;
+    }
     const cx_idx n = ws->n;
     const int dim = ws->dim;
-    const cx_idx window = settle != NULL ? settle->window : 0;
     const int most = cx_res_fused_lanes(res);
     int run[CX_MAX_RUNS + 8], keep[CX_MAX_RUNS + 8];
     const double *wcol[CX_MAX_RUNS + 8]; /* the readout of each column of the block */
@@ -356,7 +351,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
         cx_res_readout(res, w_out[b], r[b], yb);
         if (y_out != NULL && y_out[b] != NULL)
             memcpy(y_out[b], yb, (size_t)dim * sizeof *yb);
-        if (outside(yb, dim, lo, hi))
+        if (cx_res_outside(yb, dim, lr[b]->lo, lr[b]->hi))
             continue;
         run[nb] = b;
         wcol[nb] = w_out[b];
@@ -380,18 +375,19 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     if (lanes)
         cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, wcol, dt, w, lanes, window > 0, y);
+        closed_step_block(ws, res, wcol, dt, w, lanes, any_settle, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
             const double *yc = y + c * dim;
+            const cx_res_settle *settle = &lr[b]->settle;
             keep[c] = 1;
             if (y_out != NULL && y_out[b] != NULL)
                 memcpy(y_out[b] + i * dim, yc, (size_t)dim * sizeof *yc);
-            if (outside(yc, dim, lo, hi)) {
+            if (cx_res_outside(yc, dim, lr[b]->lo, lr[b]->hi)) {
                 steps_done[b] = i;
                 keep[c] = 0;
-            } else if (window > 0) {
+            } else if (settle->window > 0) {
                 /* ws->bprev holds the state before the step (closed_step_block); the state test
                  * is needed only when the outputs stood still */
                 double dr = 0.0, dy = 0.0;
@@ -406,7 +402,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                         dr = e > dr ? e : dr;
                     }
                 still[c] = dr <= settle->state_step && dy <= settle->output_step ? still[c] + 1 : 0;
-                if (still[c] >= window && i < nsteps) {
+                if (still[c] >= settle->window && i < nsteps) {
                     settled_at[b] = i;
                     if (y_out != NULL && y_out[b] != NULL)
                         for (cx_idx k = i + 1; k <= nsteps; k++)

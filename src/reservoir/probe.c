@@ -18,19 +18,6 @@
 #include "coexist/error.h"
 #include "reservoir/reservoir_impl.h"
 
-static int outside(const double *y, int dim, const double *lo, const double *hi)
-{
-    for (int j = 0; j < dim; j++) {
-        if (!isfinite(y[j]))
-            return 1;
-        if (lo != NULL && y[j] < lo[j])
-            return 1;
-        if (hi != NULL && y[j] > hi[j])
-            return 1;
-    }
-    return 0;
-}
-
 static double max_change(const double *restrict a, double *restrict prev, cx_idx n)
 {
     double d = 0.0;
@@ -69,12 +56,12 @@ int cx_res_probe_settle(cx_res_ws *ws, const cx_reservoir *res, const double *w_
         memcpy(yprev, y, (size_t)dim * sizeof *y);
     }
     cx_idx i = 0, still = 0;
-    if (!outside(y, dim, lo, hi)) {
+    if (!cx_res_outside(y, dim, lo, hi)) {
         for (i = 1; i <= nsteps; i++) {
             cx_res_closed_step(ws, res, w_out, dt, r, y);
             if (y_out != NULL)
                 memcpy(y_out + i * dim, y, (size_t)dim * sizeof *y);
-            if (outside(y, dim, lo, hi))
+            if (cx_res_outside(y, dim, lo, hi))
                 break;
             if (window == 0)
                 continue;

@@ -3,6 +3,9 @@
 #ifndef COEXIST_RESERVOIR_IMPL_H
 #define COEXIST_RESERVOIR_IMPL_H
 
+#include <math.h>
+#include <stddef.h>
+
 #include "coexist/reservoir.h"
 
 struct cx_res_ws {
@@ -57,6 +60,21 @@ struct cx_res_ws {
 
 /* Check that `res` fits the workspace and build the input tables. */
 int cx_res_meet(cx_res_ws *ws, const cx_reservoir *res);
+
+/* Whether a closed-loop output has left the box [lo, hi] (either NULL: no bound on that side) or
+ * is not finite: the stop test of every probe (probe.c, batch.c). */
+static inline int cx_res_outside(const double *y, int dim, const double *lo, const double *hi)
+{
+    for (int j = 0; j < dim; j++) {
+        if (!isfinite(y[j]))
+            return 1;
+        if (lo != NULL && y[j] < lo[j])
+            return 1;
+        if (hi != NULL && y[j] > hi[j])
+            return 1;
+    }
+    return 0;
+}
 
 /* Build the layout of the vector pre-activation pass for res (rows.c); called by cx_res_meet. */
 int cx_res_rows_build(cx_res_ws *ws, const cx_reservoir *res);
