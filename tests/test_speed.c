@@ -461,7 +461,9 @@ static void test_rows(void)
 
 /* cx_res_probe_batch against cx_res_probe_settle run by run, bit for bit, for B = 1..16, both
  * models, runs that leave the box, settle, or run the whole horizon; every other run has a second
- * readout, as the runs of two cells of a blend axis sharing one block. The batches run at each
+ * readout, as the runs of two cells of a blend axis sharing one block, and every other pair of
+ * runs a wider box and a longer early-stop window, as the runs of two cells of a task or
+ * classifier axis. The batches run at each
  * vector width (8 lanes where the CPU has AVX-512F, 4, none), the single runs at the widest. */
 static void test_batch(void)
 {
@@ -505,14 +507,19 @@ static void test_batch(void)
                 active & 2 ? CX_TANH_EXPM1 : (active & 1 ? CX_TANH_VECTOR : CX_TANH_LIBM);
             res.m = &t.m;
             res.w_in = t.win;
+            /* runs 2-3, 6-7, ... have limits of their own: a wider box and a longer early-stop
+             * window */
             const double lo[3] = {-0.16, -0.16, -0.16}, hi[3] = {0.16, 0.16, 0.16};
-            const cx_res_settle settle = {25, 1e-11, 1e-12};
+            const double lo2[3] = {-0.2, -0.2, -0.2}, hi2[3] = {0.2, 0.2, 0.2};
+            const cx_res_limits lims[2] = {{lo, hi, {25, 1e-11, 1e-12}},
+                                           {lo2, hi2, {40, 1e-11, 1e-12}}};
             for (int nbw = 0; nbw < 3 * maxb; nbw++) {
                 const int nb = nbw % maxb + 1, lim = nbw < maxb ? 8 : nbw < 2 * maxb ? 4 : 1;
                 cx_rng rng;
                 cx_rng_seed(&rng, 77 + (uint64_t)nb, 5);
                 double *rs[16], *ys[16];
                 const double *wo[16];
+                const cx_res_limits *lp[16];
                 cx_idx sd1[16], sa1[16], sd2[16], sa2[16];
                 memset(y1, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y1);
                 memset(y2, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y2);
@@ -521,16 +528,17 @@ static void test_batch(void)
                     for (cx_idx i = 0; i < n; i++)
                         r1[b * n + i] = r2[b * n + i] = cx_rng_range(&rng, -a, a);
                     wo[b] = b % 2 ? t.wout2 : t.wout;
-                    if (cx_res_probe_settle(ws, &res, wo[b], 0.02, steps, lo, hi, &settle,
-                                            r1 + b * n, y1 + b * (steps + 1) * dim, &sd1[b],
-                                            &sa1[b]) != CX_OK)
+                    lp[b] = &lims[(b / 2) % 2];
+                    if (cx_res_probe_settle(ws, &res, wo[b], 0.02, steps, lp[b]->lo, lp[b]->hi,
+                                            &lp[b]->settle, r1 + b * n, y1 + b * (steps + 1) * dim,
+                                            &sd1[b], &sa1[b]) != CX_OK)
                         same = 0;
                     rs[b] = r2 + b * n;
                     ys[b] = y2 + b * (steps + 1) * dim;
                 }
                 const int old = cx_res_simd_limit(lim);
-                if (cx_res_probe_batch(ws, &res, wo, 0.02, steps, lo, hi, &settle, nb, rs, ys, sd2,
-                                       sa2) != CX_OK)
+                if (cx_res_probe_batch(ws, &res, wo, 0.02, steps, lp, nb, rs, ys, sd2, sa2) !=
+                    CX_OK)
                     same = 0;
                 cx_res_simd_limit(old);
                 for (int b = 0; b < nb; b++) {
@@ -585,13 +593,33 @@ static const char *group_yaml =
     "  training.ridge: [1.0e-3, 1.0e-20]\n"
     "  training.blend: {from: 0.0, to: 1.0, count: 5}\n";
 
-static void test_group(void)
+/* Cells that share the reservoir but not the tasks, the washout or the classifier's bound: each
+ * cell's runs keep their own starts (drive-point starts depend on the training signals), box and
+ * early-stop test inside the shared block. */
+static const char *group_tasks_yaml =
+    "study: {name: group-tasks-test, seed: 4127}\n"
+    "reservoir: {nodes: 96, mean_degree: 3, rate: 5.0, input_scaling: 0.13}\n"
+    "training: {dt: 0.02, washout: 10, length: 40, ridge: 1.0e-4}\n"
+    "probe: {horizon: 60, tail: 15, random_starts: 1, early_stop: true, start_mode: drive-point, "
+    "drive_time: 2}\n"
+    "tasks:\n"
+    "  - {kind: cycle, name: near, centre: [-1.1, 0.15], radius: 0.95, speed: 2.3}\n"
+    "  - {kind: cycle, name: far, centre: [1.2, -0.25], radius: 1.75, ellipticity: 0.8, speed: "
+    "-1.35}\n"
+    "axes:\n"
+    "  reservoir.spectral_radius: [0.4, 1.3]\n"
+    "  tasks.near.radius: [0.6, 0.95, 1.3]\n"
+    "  training.washout: [10, 14]\n"
+    "  classify.bound: [4, 1.001]\n"
+    "  training.blend: [0.3, 0.5]\n";
+
+static void test_group(const char *yaml, const char *name, const char *what, int want_largest)
 {
     cx_study *s = NULL;
     cx_cell_ws *wa = NULL, *wb = NULL;
     cx_cell_params *p = NULL;
     cx_cell_result *ra = NULL, *rb = NULL;
-    if (cx_study_load_buffer(group_yaml, strlen(group_yaml), "group.yaml", &s) != CX_OK ||
+    if (cx_study_load_buffer(yaml, strlen(yaml), name, &s) != CX_OK ||
         cx_cell_ws_create(&wa) != CX_OK || cx_cell_ws_create(&wb) != CX_OK) {
         cx_err_print("test_speed", 1);
         cx_test_true("load the group sweep", 0, "", "");
@@ -625,14 +653,16 @@ static void test_group(void)
         same &= memcmp(&ra[c], &rb[c], sizeof ra[c]) == 0;
         failed += ra[c].status != CX_CELL_COMPUTED;
     }
-    char d[200];
-    snprintf(d, sizeof d,
-             "%lld cells in %d groups of up to %d; %d cells not computed (ridge 1e-20)",
+    char d[200], t[300];
+    snprintf(d, sizeof d, "%s: %lld cells in %d groups of up to %d; %d cells not computed", name,
              (long long)cells, groups, largest, failed);
-    cx_test_true("cells computed as groups == one at a time, bit for bit (every field but the "
-                 "timings)",
-                 same, d, SRC_OURS);
-    cx_test_true("the group sweep forms groups of several cells", ok && largest >= 5, d, SRC_OURS);
+    snprintf(t, sizeof t,
+             "cells computed as groups == one at a time, bit for bit (every field but the "
+             "timings): %s",
+             what);
+    cx_test_true(t, same, d, SRC_OURS);
+    snprintf(t, sizeof t, "the group sweep forms groups of %d cells: %s", want_largest, what);
+    cx_test_true(t, ok && largest == want_largest, d, SRC_OURS);
 done:
     free(rb);
     free(ra);
@@ -649,7 +679,9 @@ int main(void)
     test_tanh_mode(CX_TANH_EXPM1, "expm1", 4.0, SRC_EXPM1);
     test_rows();
     test_batch();
-    test_group();
+    test_group(group_yaml, "group.yaml", "blend and ridge axes", CX_CELL_GROUP);
+    test_group(group_tasks_yaml, "group-tasks.yaml",
+               "task radius, washout, classifier bound and blend axes", CX_CELL_GROUP);
     test_early_stop_demo();
     test_small_sweep();
     return cx_test_finish();

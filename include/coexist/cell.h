@@ -87,12 +87,16 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell,
 /* Most cells computed together by cx_cell_compute_group. */
 #define CX_CELL_GROUP 8
 
-/* Compute the leading cells of p[0..k-1] that differ from p[0] only in their readout's
- * parameters (blend, weights, ridge), at most CX_CELL_GROUP of them: their drive is shared and
- * the closed-loop runs of all of them advance together in blocks (cells of a blend axis, in the
- * order the engine hands them out). Each result is bit for bit what cx_cell_compute gives for
- * that cell alone, except the timings: the block's probe time is shared out evenly. Always
- * computes at least one cell. OUT: out[0..*used-1], *used. Not collective. */
+/* Compute the leading cells of p[0..k-1] that run on the same reservoir as p[0] (network,
+ * input, spectral radius and the other reservoir settings, dt, probe settings, task count),
+ * at most CX_CELL_GROUP of them: the closed-loop runs of all of them advance together in blocks,
+ * each run with its own cell's readout, start, bound box and early-stop test. Cells that differ
+ * only in their readout's parameters (blend, weights, ridge) also share one drive; cells that
+ * differ in their tasks, washout, length, stride or classifier settings each have their own (the
+ * cells of a blend, overlap or washout axis, in the order the engine hands them out). Each result
+ * is bit for bit what cx_cell_compute gives for that cell alone, except the timings: the block's
+ * probe time is shared out evenly. Always computes at least one cell. OUT: out[0..*used-1],
+ * *used. Not collective. */
 int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const cx_idx *cells,
                           int k, cx_cell_result *out /* out */, int *used /* out */);
 

@@ -74,9 +74,8 @@ static void free_drive(cx_cell_ws *ws)
         free(ws->r_end[k]);
         ws->g[k] = ws->c[k] = ws->r_end[k] = NULL;
     }
-    free(ws->w_out);
     free(ws->work);
-    ws->w_out = ws->work = NULL;
+    ws->work = NULL;
     ws->have_drive = 0;
 }
 
@@ -103,6 +102,7 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     cx_csr_free(&ws->m0);
     cx_res_ws_free(&ws->rws);
     cx_class_ws_free(&ws->cws);
+    free(ws->w_out);
     free(ws->y);
     free(ws->run_r);
     free(ws->truth);
@@ -110,6 +110,7 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     free(ws->kept_start);
     free(ws->run_ptr);
     free(ws->run_w);
+    free(ws->run_lim);
     free(ws->steps_done);
     free(ws->settled_at);
     free(ws);
@@ -329,12 +330,20 @@ static void blend_weights(const cx_cell_params *p, double *w)
     }
 }
 
-/* Room for the readouts of a group (CX_CELL_GROUP of them, nfeat x dim each). */
+/* Room for the readouts of a group (CX_CELL_GROUP of them, nfeat x dim each). Not freed with
+ * the drive: the cells of a group can have drives of their own (tasks, washout) and each
+ * readout must outlive the next cell's drive. */
 static int ensure_readouts(cx_cell_ws *ws)
 {
     int rc = CX_OK;
-    if (ws->w_out == NULL)
-        CX_ALLOC(ws->w_out, CX_CELL_GROUP * ws->nfeat * ws->dim);
+    const cx_idx need = CX_CELL_GROUP * ws->nfeat * ws->dim;
+    if (ws->w_out_cap < need) {
+        free(ws->w_out);
+        ws->w_out = NULL;
+        ws->w_out_cap = 0;
+        CX_ALLOC(ws->w_out, need);
+        ws->w_out_cap = need;
+    }
 done:
     return rc;
 }
@@ -364,14 +373,17 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
     if (ws->run_ptr_cap < nruns) {
         free(ws->run_ptr);
         free(ws->run_w);
+        free(ws->run_lim);
         free(ws->steps_done);
         free(ws->settled_at);
         ws->run_ptr = NULL;
         ws->run_w = NULL;
+        ws->run_lim = NULL;
         ws->steps_done = ws->settled_at = NULL;
         ws->run_ptr_cap = 0;
         CX_ALLOC(ws->run_ptr, 2 * (cx_idx)nruns);
         CX_ALLOC(ws->run_w, nruns);
+        CX_ALLOC(ws->run_lim, nruns);
         CX_ALLOC(ws->steps_done, nruns);
         CX_ALLOC(ws->settled_at, nruns);
         ws->run_ptr_cap = nruns;
@@ -469,10 +481,10 @@ static void result_init(cx_cell_result *out, const cx_cell_params *p, cx_idx cel
     }
 }
 
-/* Two cells can share the closed-loop block when they differ at most in their readout's
- * parameters (blend, weights, ridge): then network, input, drive, start states, bound box and
- * early-stop test are the same. Compared as bytes of the parameters with those fields made equal
- * (cx_study_bind zero-initialises the structure, padding included). */
+/* Two cells have the same start states when they differ at most in their readout's parameters
+ * (blend, weights, ridge): then network, input, drive, bound box and early-stop test are the
+ * same too. Compared as bytes of the parameters with those fields made equal (cx_study_bind
+ * zero-initialises the structure, padding included). */
 static int same_but_readout(const cx_cell_params *a, const cx_cell_params *b)
 {
     cx_cell_params t;
@@ -481,6 +493,23 @@ static int same_but_readout(const cx_cell_params *a, const cx_cell_params *b)
     t.train.weights_listed = a->train.weights_listed;
     memcpy(t.train.weights, a->train.weights, sizeof t.train.weights);
     t.train.ridge = a->train.ridge;
+    return memcmp(&t, a, sizeof t) == 0;
+}
+
+/* Two cells can share the closed-loop block when they run on the same reservoir: the same
+ * network, input, spectral radius and other reservoir settings, time step, probe settings and
+ * number of tasks, whatever their tasks, training (washout, length, stride, readout) and
+ * classifier settings, as the cells of an overlap or washout axis. Each run keeps its cell's
+ * readout, start, bound box and early-stop test (cx_res_probe_batch takes them per run). */
+static int same_reservoir(const cx_cell_params *a, const cx_cell_params *b)
+{
+    cx_cell_params t;
+    memcpy(&t, b, sizeof t);
+    memcpy(t.tasks, a->tasks, sizeof t.tasks);
+    const double dt = t.train.dt;
+    t.train = a->train;
+    t.train.dt = dt;
+    t.cls = a->cls;
     return memcmp(&t, a, sizeof t) == 0;
 }
 
@@ -533,7 +562,7 @@ done:
 }
 
 /* What the closed-loop runs of a cell are judged by: the bound box, the early-stop test, the
- * tail and the trained attractors. The same for every cell of a group. */
+ * tail and the trained attractors (those of the series staged last: stage_series first). */
 typedef struct probe_setup {
     double lo[CX_MAX_DIM], hi[CX_MAX_DIM];
     cx_res_settle settle;
@@ -636,61 +665,70 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
     cx_reservoir res;
     CX_REQUIRE(k >= 1 && p != NULL && cells != NULL && out != NULL && used != NULL, CX_ERR_INVALID,
                "cell group: %d cells or a NULL argument", k);
-    /* The leading cells that differ only in their readout (never more than CX_CELL_GROUP, and
-     * one at a time when a dump is kept). */
+    /* The leading cells that run on the same reservoir (never more than CX_CELL_GROUP, and one
+     * at a time when a dump is kept). */
     int ng = 1;
     if (!ws->keep)
-        while (ng < k && ng < CX_CELL_GROUP && same_but_readout(p[0], p[ng]))
+        while (ng < k && ng < CX_CELL_GROUP && same_reservoir(p[0], p[ng]))
             ng++;
     *used = ng;
     for (int g = 0; g < ng; g++)
         result_init(&out[g], p[g], cells[g]);
-    for (int g = 0; g < ng; g++)
-        CX_TRY(cell_solve(ws, p[g], &out[g], &res, g));
 
-    /* Stage 5: every run's start (the same for the whole group: starts depend on the drive and
-     * the seed only), then the runs of all cells whose readout was solved, advanced together in
-     * blocks of cx_res_batch_runs (bit for bit what one run at a time gives), then each cell
-     * judged. */
-    const cx_cell_params *p0 = p[0];
+    /* Stages 1-4 cell by cell, each cell's run starts taken right after its drive (the end
+     * states of its training, or random starts, which cells differing only in their readout
+     * share), with its bound box and early-stop test. */
     const int nruns = out[0].nruns;
-    int total = 0;
-    for (int g = 0; g < ng; g++)
-        if (out[g].status == CX_CELL_NOT_DONE)
-            total += nruns;
-    if (total == 0)
-        goto finish;
-    CX_TRY(ensure_run_buffers(ws, p0, total));
-    probe_setup ps;
-    probe_setup_of(ws, p0, &ps);
-    const cx_idx n = p0->net.nodes;
-    const cx_idx len = (ws->horizon + 1) * p0->dim;
-    double t0 = cx_clock_mono();
-    double **run_state = ws->run_ptr, **run_y = ws->run_ptr + total;
-    const double **run_w = ws->run_w;
-    for (int j = 0; j < nruns; j++) {
-        run_state[j] = ws->run_r + (cx_idx)j * n;
-        CX_TRY(run_start(ws, p0, &res, j, run_state[j]));
-        if (ws->keep)
-            memcpy(ws->kept_start + (cx_idx)j * n, run_state[j], (size_t)n * sizeof *ws->r);
-    }
-    int q = 0;
+    probe_setup ps[CX_CELL_GROUP];
+    cx_res_limits lim[CX_CELL_GROUP];
+    double **run_state = NULL, **run_y = NULL;
+    const double **run_w = NULL;
+    const cx_res_limits **run_lim = NULL;
+    int q = 0, prev = -1; /* runs set up so far; the last cell whose readout was solved */
     for (int g = 0; g < ng; g++) {
+        CX_TRY(cell_solve(ws, p[g], &out[g], &res, g));
+        if (g == 0) {
+            CX_TRY(ensure_run_buffers(ws, p[0], ng * nruns));
+            run_state = ws->run_ptr;
+            run_y = ws->run_ptr + ng * nruns;
+            run_w = ws->run_w;
+            run_lim = ws->run_lim;
+        }
         if (out[g].status != CX_CELL_NOT_DONE)
             continue;
+        const double t0 = cx_clock_mono();
+        probe_setup_of(ws, p[g], &ps[g]);
+        lim[g] = (cx_res_limits){ps[g].lo, ps[g].hi, ps[g].settle};
+        const cx_idx n = p[g]->net.nodes;
+        const cx_idx len = (ws->horizon + 1) * p[g]->dim;
         for (int j = 0; j < nruns; j++, q++) {
             run_state[q] = ws->run_r + (cx_idx)q * n;
-            if (q >= nruns)
-                memcpy(run_state[q], run_state[j], (size_t)n * sizeof *ws->r);
+            if (prev >= 0 && same_but_readout(p[prev], p[g]))
+                memcpy(run_state[q], run_state[q - nruns], (size_t)n * sizeof *ws->r);
+            else
+                CX_TRY(run_start(ws, p[g], &res, j, run_state[q]));
+            if (ws->keep)
+                memcpy(ws->kept_start + (cx_idx)j * n, run_state[q], (size_t)n * sizeof *ws->r);
             run_y[q] = ws->y + (cx_idx)q * len;
-            run_w[q] = ws->w_out + (cx_idx)g * ws->nfeat * p0->dim;
+            run_w[q] = ws->w_out + (cx_idx)g * ws->nfeat * p[g]->dim;
+            run_lim[q] = &lim[g];
         }
+        prev = g;
+        out[g].time.probes = cx_clock_mono() - t0;
     }
-    const int batch = cx_res_batch_runs(p0->res.tanh_mode);
+    const int total = q;
+    if (total == 0)
+        goto finish;
+
+    /* Stage 5: the runs of all cells whose readout was solved, advanced together in blocks of
+     * cx_res_batch_runs (bit for bit what one run at a time gives), then each cell judged
+     * against its own series and attractors (staged again: the series cache holds one cell's). */
+    double t0 = cx_clock_mono();
+    const int batch = cx_res_batch_runs(p[0]->res.tanh_mode);
     for (int j = 0; j < total; j += batch) {
         int nb = total - j < batch ? total - j : batch;
-        CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, p0->train.dt, ws->horizon, ps.lo, ps.hi,
-                                  &ps.settle, nb, run_state + j, run_y + j, ws->steps_done + j,
+        CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, p[0]->train.dt, ws->horizon,
+                                  run_lim + j, nb, run_state + j, run_y + j, ws->steps_done + j,
                                   ws->settled_at + j));
     }
     /* the block's time, shared out over the cells by their runs (all cells have as many) */
@@ -699,8 +737,10 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
     for (int g = 0; g < ng; g++) {
         if (out[g].status != CX_CELL_NOT_DONE)
             continue;
-        out[g].time.probes = t_probe;
-        CX_TRY(cell_judge(ws, p[g], &res, &ps, run_w[q], run_state + q, run_y + q,
+        out[g].time.probes += t_probe;
+        CX_TRY(stage_series(ws, p[g]));
+        probe_setup_of(ws, p[g], &ps[g]);
+        CX_TRY(cell_judge(ws, p[g], &res, &ps[g], run_w[q], run_state + q, run_y + q,
                           ws->steps_done + q, ws->settled_at + q, &out[g]));
         q += nruns;
     }

@@ -64,15 +64,18 @@ struct cx_cell_ws {
     int rws_dim, rws_features;
     /* solve and probes */
     double *w_out; /* CX_CELL_GROUP readouts, dim x nfeat each (the first is the last single
-                      cell's, which cx_cell_dump writes) */
+                      cell's, which cx_cell_dump writes); kept across drives, since the cells
+                      of a group may each have their own */
+    cx_idx w_out_cap;
     double *work;  /* nfeat^2 + dim * nfeat */
     double *r;     /* n */
     double *y;     /* nruns x (horizon + 1) x dim: every run's outputs */
     double *run_r; /* nruns x n: every run's state (start, then end) */
     cx_idx run_r_cap;
-    /* per run of a group: state and output pointers (2 x cap), readouts, stop steps */
+    /* per run of a group: state and output pointers (2 x cap), readouts, limits, stop steps */
     double **run_ptr;
     const double **run_w;
+    const cx_res_limits **run_lim;
     cx_idx *steps_done, *settled_at;
     int run_ptr_cap;
     double *truth; /* (horizon + 1) x dim: a task's true continuation at whole steps */

@@ -199,7 +199,7 @@ double cx_cell_memory_bytes(const cx_cell_params *p)
                             cx_cell_steps(p->train.length, p->train.dt) +
                             cx_cell_steps(p->probe.horizon, p->train.dt));
     double dense_eig = n <= 1500 ? 8.0 * n * n * 2.0 : 0.0;
-    /* a workspace computes up to CX_CELL_GROUP cells that differ only in their readout at once
+    /* a workspace computes up to CX_CELL_GROUP cells that share the reservoir at once
      * (cx_cell_compute_group): their readouts, run states and outputs are held together */
     const double group = CX_CELL_GROUP;
     const double runs = (double)(p->ntasks + p->probe.random_starts);
