@@ -287,11 +287,63 @@ static void test_units(void)
     cx_plan_destroy(&p);
 }
 
+/* Units of equal cost that run on the same reservoir come one after another, whatever the axis
+ * order: here an overlap axis (4 values, one drive each) outside a spectral-radius axis (3
+ * values), so that the cells of one radius are 3 apart in the grid. */
+static void test_units_reservoir(void)
+{
+    cx_plan *p = NULL;
+    double v4[4] = {0.0, 0.5, 1.0, 1.5}, v3[3] = {0.8, 1.0, 1.2};
+    int rc = cx_plan_create("units-reservoir", 2, 1, "k: v\n", &p);
+    if (rc == CX_OK)
+        rc = cx_plan_add_axis(p, "overlap", "1", 4, v4);
+    if (rc == CX_OK)
+        rc = cx_plan_add_axis(p, "reservoir.spectral_radius", "1", 3, v3);
+    if (rc == CX_OK)
+        rc = cx_plan_alloc_keys(p);
+    cx_test_true("plan of 12 cells", rc == CX_OK && p->ncells == 12, "", "4 x 3");
+    if (rc != CX_OK)
+        return;
+    for (cx_idx c = 0; c < 12; c++) {
+        cx_idx co[2];
+        cx_plan_coords(p, c, co);
+        p->network_key[c] = 77;
+        p->drive_key[c] = 900 + (uint64_t)c;
+        p->reservoir_key[c] = 40 + (uint64_t)co[1];
+        p->cost_shared[c] = 5.0;
+        p->cost_own[c] = 1.0;
+    }
+    uint8_t todo[12];
+    memset(todo, 1, sizeof todo);
+    cx_units *u = NULL;
+    int64_t cells[12], order[12];
+    cx_idx n, nu, got = 0;
+    rc = cx_units_build(p, todo, 1024, &u);
+    while (rc == CX_OK && (n = cx_units_take(u, 0, 1, 0, 12, cells, &nu)) > 0)
+        for (cx_idx i = 0; i < n && got < 12; i++)
+            order[got++] = cells[i];
+    /* one change of reservoir key per radius: 2 changes over the 12 cells */
+    int changes = 0, rising = 1;
+    for (cx_idx i = 1; i < got; i++) {
+        changes += p->reservoir_key[order[i]] != p->reservoir_key[order[i - 1]];
+        if (p->reservoir_key[order[i]] == p->reservoir_key[order[i - 1]])
+            rising &= order[i] > order[i - 1];
+    }
+    char d[96];
+    snprintf(d, sizeof d, "%lld cells handed out, %d changes of reservoir key", (long long)got,
+             changes);
+    cx_test_true("units of equal cost are grouped by reservoir key, then by first cell",
+                 got == 12 && changes == 2 && rising, d, "units.c contract");
+    cx_units_destroy(&u);
+    cx_plan_destroy(&p);
+}
+
 int main(void)
 {
     test_crc();
     test_record();
     test_journal();
     test_units();
+    test_units_reservoir();
     return cx_test_finish();
 }

@@ -11,6 +11,10 @@
  *               tasks, dt, washout, length, stride         (G_k, C_k, end states r_k(T))
  *   solve    <- drive key + blend / weights + ridge        (W_out)
  *   probe    <- solve key + probe and classify settings    (labels and metrics)
+ * and, beside the chain, the closed-loop block:
+ *   reservoir <- input key + spectral radius, model, rate, leak, input scaling, bias, features,
+ *               tanh evaluation, dt, probe settings, task count
+ *               (cells of one reservoir key advance their runs together: cx_cell_compute_group)
  * A workspace keeps the last network and the last drive; the engine orders the cells of a work
  * unit (one drive key) one after another so that only the solve and the probes are repeated.
  */
@@ -116,6 +120,7 @@ int cx_cell_dump(const cx_cell_ws *ws, const cx_cell_params *p, const cx_cell_re
 uint64_t cx_cell_network_key(const cx_cell_params *p);
 uint64_t cx_cell_input_key(const cx_cell_params *p);
 uint64_t cx_cell_drive_key(const cx_cell_params *p);
+uint64_t cx_cell_reservoir_key(const cx_cell_params *p);
 
 /* Estimated cost of one cell in floating-point operations when every stage runs, and its peak
  * memory in bytes. cx_cell_cost_parts splits the cost by stage: a work unit pays `network` and

@@ -141,6 +141,36 @@ uint64_t cx_cell_drive_key(const cx_cell_params *p)
     return key_finish(h);
 }
 
+/* The cells that run on the same reservoir and can share the closed-loop block
+ * (cx_cell_compute_group's test): input key, reservoir settings, time step, probe settings and
+ * task count. The engine orders units of equal cost by it; grouping itself compares the
+ * parameters, so a collision of this hash costs speed only. */
+uint64_t cx_cell_reservoir_key(const cx_cell_params *p)
+{
+    uint64_t h = FNV_OFFSET;
+    key_input(&h, p);
+    cx_key_f64(&h, p->res.spectral_radius);
+    cx_key_u64(&h, (uint64_t)p->res.model);
+    cx_key_f64(&h, p->res.rate);
+    cx_key_f64(&h, p->res.leak);
+    cx_key_f64(&h, p->res.input_scaling);
+    cx_key_f64(&h, p->res.bias);
+    cx_key_u64(&h, (uint64_t)p->res.features);
+    cx_key_u64(&h, (uint64_t)p->res.tanh_mode);
+    cx_key_f64(&h, p->train.dt);
+    cx_key_f64(&h, p->probe.horizon);
+    cx_key_f64(&h, p->probe.tail);
+    cx_key_u64(&h, (uint64_t)p->probe.random_starts);
+    cx_key_u64(&h, (uint64_t)p->probe.start_mode);
+    cx_key_f64(&h, p->probe.start_box);
+    cx_key_f64(&h, p->probe.drive_time);
+    cx_key_u64(&h, (uint64_t)p->probe.lyapunov);
+    cx_key_u64(&h, (uint64_t)p->probe.early_stop);
+    cx_key_f64(&h, p->probe.lyapunov_time);
+    cx_key_u64(&h, (uint64_t)p->ntasks);
+    return key_finish(h);
+}
+
 cx_idx cx_cell_steps(double time, double dt)
 {
     double s = floor(time / dt + 0.5);
