@@ -63,6 +63,22 @@ static const char *const sweep_fmt =
     "  reservoir.spectral_radius: [0.4, 1.1]\n"
     "  training.blend: {from: 0.1, to: 0.9, count: %d}\n";
 
+/* A task axis: the same two tasks with the broad cycle's radius varied (how far it reaches into
+ * the tight one), at one spectral radius, one seed and N = 1000, no blend axis. Every cell has
+ * its own drive; their closed-loop runs can share one block (cx_cell_compute_group). */
+static const char *const task_fmt =
+    "study: {name: bench-reach, seed: 4127}\n"
+    "reservoir: {nodes: 1000, mean_degree: 3, rate: 5.0, input_scaling: 0.12, "
+    "spectral_radius: 1.1, tanh: expm1}\n"
+    "tasks:\n"
+    "  - {kind: cycle, name: tight, centre: [-0.9, 0.1], radius: 1.0, speed: 2.1}\n"
+    "  - {kind: cycle, name: broad, centre: [1.1, -0.2], radius: 1.7, ellipticity: 0.75,"
+    " speed: -1.2}\n"
+    "training: {dt: 0.01, washout: 10, length: 100, ridge: 1.0e-4, blend: 0.5}\n"
+    "probe: {horizon: %g, tail: %g, random_starts: 0, early_stop: true}\n"
+    "axes:\n"
+    "  tasks.broad.radius: {from: 1.3, to: 2.0, count: %d}\n";
+
 typedef struct options {
     int quick;
     int kernels_only;
@@ -108,6 +124,14 @@ typedef struct sweep_figs {
     double coexist_same_cells;
     int numpy_done;
 } sweep_figs;
+
+/* The task-axis sweep computed twice with the fast paths: cells sharing a reservoir grouped,
+ * and one cell at a time (each cell's two runs as one block). */
+typedef struct task_figs {
+    cx_idx cells;
+    double probes[2], cpu[2]; /* [0] grouped, [1] one cell at a time */
+    int labels_same;
+} task_figs;
 
 static void random_csr(cx_idx n, int deg, double scale, cx_rng *rng, cx_csr *m, cx_idx *rowptr,
                        cx_idx *col, double *val)
@@ -422,7 +446,37 @@ done:
     return rc;
 }
 
-/* Add one cell's stage times, labels and outcomes to the sweep figures. */
+/* The task-axis sweep, grouped and one cell at a time; labels compared. */
+static int run_task_axis(const options *o, task_figs *tk)
+{
+    int rc = CX_OK;
+    cx_study *s = NULL;
+    int *lab[2] = {NULL, NULL};
+    double *secs = NULL;
+    char text[1024];
+    int len = snprintf(text, sizeof text, task_fmt, o->quick ? 100.0 : 1000.0,
+                       o->quick ? 20.0 : 100.0, CX_CELL_GROUP);
+    CX_TRY(cx_study_load_buffer(text, (size_t)len, "bench-task-axis", &s));
+    tk->cells = cx_study_cells(s);
+    CX_CALLOC(lab[0], tk->cells * CX_MAX_RUNS);
+    CX_CALLOC(lab[1], tk->cells * CX_MAX_RUNS);
+    CX_CALLOC(secs, tk->cells);
+    for (int h = 0; h < 2; h++) {
+        sweep_figs f;
+        memset(&f, 0, sizeof f);
+        CX_TRY(run_sweep(s, h == 0, &f, lab[h], secs));
+        tk->probes[h] = f.probes;
+        tk->cpu[h] = f.cpu;
+    }
+    tk->labels_same =
+        memcmp(lab[0], lab[1], (size_t)(tk->cells * CX_MAX_RUNS) * sizeof *lab[0]) == 0;
+done:
+    free(secs);
+    free(lab[1]);
+    free(lab[0]);
+    cx_study_destroy(&s);
+    return rc;
+}
 
 /* The i-th of k sample cells, spread evenly over the grid (both node counts when k >= 2). */
 static cx_idx sample_cell(const cx_study *s, int i, int k)
@@ -482,7 +536,7 @@ done:
 }
 
 static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const sweep_figs *sf,
-                         const sweep_figs *base, int quick)
+                         const sweep_figs *base, const task_figs *tk, int quick)
 {
     const double per_cell = sf != NULL ? sf->total / (double)sf->cells : NAN;
     const double cpu_per_cell = sf != NULL ? sf->cpu / (double)sf->cells : NAN;
@@ -537,12 +591,18 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 "  \"numpy\": {\"cells\": %d, \"seconds_per_cell\": %.3f, \"drive\": %.3f, "
                 "\"gram\": %.3f, \"probes\": %.3f, \"coexist_seconds_same_cells\": %.3f, "
                 "\"cpu_seconds_per_cell\": %.3f, \"coexist_cpu_seconds_per_cell\": %.3f, "
-                "\"throughput_ratio_cpu\": %.2f, \"throughput_ratio_wall\": %.2f}\n}\n",
+                "\"throughput_ratio_cpu\": %.2f, \"throughput_ratio_wall\": %.2f},\n",
                 base->total, sf->labels_same ? "true" : "false", sf->numpy_done, sf->numpy_per_cell,
                 sf->numpy_drive, sf->numpy_gram, sf->numpy_probes, sf->coexist_same_cells,
                 sf->numpy_cpu_per_cell, cpu_per_cell,
                 sf->numpy_done ? sf->numpy_cpu_per_cell / cpu_per_cell : NAN,
                 sf->numpy_done ? sf->numpy_per_cell / per_cell : NAN);
+        fprintf(f,
+                "  \"task_axis\": {\"cells\": %lld, \"probe_seconds\": {\"grouped\": %.3f, "
+                "\"one_cell_at_a_time\": %.3f}, \"cpu_seconds\": {\"grouped\": %.3f, "
+                "\"one_cell_at_a_time\": %.3f}, \"labels_identical\": %s}\n}\n",
+                (long long)tk->cells, tk->probes[0], tk->probes[1], tk->cpu[0], tk->cpu[1],
+                tk->labels_same ? "true" : "false");
         return;
     }
     fprintf(f, "| N | tanh | drive ns/node/stage | probe ns/node/stage | tanh ns |\n");
@@ -552,7 +612,7 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
         for (int mode = 0; mode < CX_BENCH_TANHS; mode++)
             fprintf(f, "| %lld | %s | %.2f | %.2f | %.2f |\n", (long long)k->n, tanh_names[mode],
                     k->drive[mode], k->probe[mode], k->tanh_ns[mode]);
-        for (int h = 0; h < 2; h++) {
+        for (int h = 0; h < (k->lanes > 4 ? 2 : 1); h++) {
             const double *pb = h ? k->probe_batch4 : k->probe_batch;
             fprintf(f, "| %lld | %s, batched B = 1/2/4/8/16, %d lanes | | ", (long long)k->n,
                     tanh_names[CX_BENCH_FAST], h ? 4 : k->lanes);
@@ -608,6 +668,12 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 sf->numpy_drive / sf->numpy_done, sf->numpy_gram / sf->numpy_done,
                 sf->numpy_probes / sf->numpy_done, sf->coexist_same_cells,
                 sf->numpy_cpu_per_cell / cpu_per_cell, sf->numpy_per_cell / per_cell);
+    fprintf(f,
+            "task axis (%lld cells of one reservoir, one task's radius varied, own drive each): "
+            "probes %.2f s grouped vs %.2f s one cell at a time (%.2fx); CPU seconds %.2f vs "
+            "%.2f (%.2fx); labels identical: %s\n",
+            (long long)tk->cells, tk->probes[0], tk->probes[1], tk->probes[1] / tk->probes[0],
+            tk->cpu[0], tk->cpu[1], tk->cpu[1] / tk->cpu[0], tk->labels_same ? "yes" : "NO");
 }
 
 int main(int argc, char **argv)
@@ -636,6 +702,8 @@ int main(int argc, char **argv)
     int rc = CX_OK;
     kernel_figs kf[2];
     sweep_figs sf, base;
+    task_figs tk;
+    memset(&tk, 0, sizeof tk);
     memset(kf, 0, sizeof kf);
     memset(&sf, 0, sizeof sf);
     memset(&base, 0, sizeof base);
@@ -647,11 +715,11 @@ int main(int argc, char **argv)
     for (int i = 0; i < nk; i++)
         CX_TRY(kernels(sizes[i], o.quick, &kf[i]));
     if (o.kernels_only) {
-        print_report(stdout, 0, kf, nk, NULL, NULL, o.quick);
+        print_report(stdout, 0, kf, nk, NULL, NULL, NULL, o.quick);
         if (o.json != NULL) {
             FILE *f = fopen(o.json, "w");
             CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
-            print_report(f, 1, kf, nk, NULL, NULL, o.quick);
+            print_report(f, 1, kf, nk, NULL, NULL, NULL, o.quick);
             CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
         }
         goto done;
@@ -666,16 +734,17 @@ int main(int argc, char **argv)
     CX_TRY(run_sweep(fast, 1, &sf, lf, tf));
     CX_TRY(run_sweep(plain, 0, &base, lp, tp));
     sf.labels_same = memcmp(lf, lp, (size_t)(cells * CX_MAX_RUNS) * sizeof *lf) == 0;
+    CX_TRY(run_task_axis(&o, &tk));
     int k = o.numpy_cells < cells ? o.numpy_cells : (int)cells;
     for (int i = 0; i < k; i++)
         sf.coexist_same_cells += tf[sample_cell(fast, i, k)];
     if (k > 0)
         CX_TRY(run_numpy(fast, &o, k, &sf));
-    print_report(stdout, 0, kf, nk, &sf, &base, o.quick);
+    print_report(stdout, 0, kf, nk, &sf, &base, &tk, o.quick);
     if (o.json != NULL) {
         FILE *f = fopen(o.json, "w");
         CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
-        print_report(f, 1, kf, nk, &sf, &base, o.quick);
+        print_report(f, 1, kf, nk, &sf, &base, &tk, o.quick);
         CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
     }
 done:
