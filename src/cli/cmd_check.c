@@ -99,7 +99,7 @@ int cx_cmd_check(int argc, char **argv)
            e.flops * 1e-9, e.flops * 1e-9 / (double)cells, e.flops / CX_ASSUMED_FLOP_RATE / 3600.0,
            CX_ASSUMED_FLOP_RATE * 1e-9);
     printf("memory: at most %.1f MiB per rank (a rank computes one cell, or up to %d cells that "
-           "differ only in their readout, at a time)\n",
+           "share a reservoir, at a time)\n",
            e.memory_max / 1048576.0, CX_CELL_GROUP);
     cx_study_destroy(&s);
     return CX_EXIT_OK;

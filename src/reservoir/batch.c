@@ -1,19 +1,19 @@
 /* coexist: several closed-loop runs of one reservoir advanced together.
  *
  * The runs of a cell share M, W_in and b, and differ in their start states; runs of several cells
- * of one work unit (cells that differ only in their readout, say along a blend axis) differ in
- * W_out as well, so every run carries its own readout. B of them are stored as one n x B row-major
- * block X (X[i B + c] = node i of run c) and every RK4 stage (Lu, Hunt & Ott 2018, Chaos 28,
- * 061104; see model.c for the stage equations) is one sparse-times-block product: each stored entry
- * M_ij is read once and applied to the B values of node j, which sit side by side; tanh runs over
- * the whole block (tanh.c); the readout W_out q(x) of the B runs is B independent sums, each with
- * its run's W_out. The arithmetic of each run is, operation for operation, that of the single-run
- * kernels (model.c, probe.c): pre-activation b_i + input, then the entries of row i in storage
- * order; the same stage update; the readout summed node by node, linear term then square. So a
- * run's outputs, end state and stop step are bit-identical to cx_res_probe_settle's whatever B and
- * whichever runs share the block. Runs never interact: a column is only ever combined with itself.
- * A run that leaves the bound box or settles drops out and the block is compacted, so stopped runs
- * cost nothing.
+ * on one reservoir (along a blend, overlap or washout axis, say) differ in W_out, bound box and
+ * early-stop test as well, so every run carries its own readout and limits. B of them are stored as
+ * one n x B row-major block X (X[i B + c] = node i of run c) and every RK4 stage (Lu, Hunt & Ott
+ * 2018, Chaos 28, 061104; see model.c for the stage equations) is one sparse-times-block product:
+ * each stored entry M_ij is read once and applied to the B values of node j, which sit side by
+ * side; tanh runs over the whole block (tanh.c); the readout W_out q(x) of the B runs is B
+ * independent sums, each with its run's W_out. The arithmetic of each run is, operation for
+ * operation, that of the single-run kernels (model.c, probe.c): pre-activation b_i + input, then
+ * the entries of row i in storage order; the same stage update; the readout summed node by node,
+ * linear term then square. So a run's outputs, end state and stop step are bit-identical to
+ * cx_res_probe_settle's whatever B and whichever runs share the block. Runs never interact: a
+ * column is only ever combined with itself. A run that leaves the bound box or settles drops out
+ * and the block is compacted, so stopped runs cost nothing.
  */
 #include <math.h>
 #include <stdlib.h>
