@@ -119,19 +119,26 @@ uint64_t cx_cell_input_key(const cx_cell_params *p)
     return key_finish(h);
 }
 
+/* The input key and what else makes the reservoir's equations: spectral radius, model and its
+ * settings, features, tanh evaluation, time step (shared by the drive and reservoir keys). */
+static void key_reservoir(uint64_t *h, const cx_cell_params *p)
+{
+    key_input(h, p);
+    cx_key_f64(h, p->res.spectral_radius);
+    cx_key_u64(h, (uint64_t)p->res.model);
+    cx_key_f64(h, p->res.rate);
+    cx_key_f64(h, p->res.leak);
+    cx_key_f64(h, p->res.input_scaling);
+    cx_key_f64(h, p->res.bias);
+    cx_key_u64(h, (uint64_t)p->res.features);
+    cx_key_u64(h, (uint64_t)p->res.tanh_mode);
+    cx_key_f64(h, p->train.dt);
+}
+
 uint64_t cx_cell_drive_key(const cx_cell_params *p)
 {
     uint64_t h = FNV_OFFSET;
-    key_input(&h, p);
-    cx_key_f64(&h, p->res.spectral_radius);
-    cx_key_u64(&h, (uint64_t)p->res.model);
-    cx_key_f64(&h, p->res.rate);
-    cx_key_f64(&h, p->res.leak);
-    cx_key_f64(&h, p->res.input_scaling);
-    cx_key_f64(&h, p->res.bias);
-    cx_key_u64(&h, (uint64_t)p->res.features);
-    cx_key_u64(&h, (uint64_t)p->res.tanh_mode);
-    cx_key_f64(&h, p->train.dt);
+    key_reservoir(&h, p);
     cx_key_f64(&h, p->train.washout);
     cx_key_f64(&h, p->train.length);
     cx_key_u64(&h, (uint64_t)p->train.stride);
@@ -148,16 +155,7 @@ uint64_t cx_cell_drive_key(const cx_cell_params *p)
 uint64_t cx_cell_reservoir_key(const cx_cell_params *p)
 {
     uint64_t h = FNV_OFFSET;
-    key_input(&h, p);
-    cx_key_f64(&h, p->res.spectral_radius);
-    cx_key_u64(&h, (uint64_t)p->res.model);
-    cx_key_f64(&h, p->res.rate);
-    cx_key_f64(&h, p->res.leak);
-    cx_key_f64(&h, p->res.input_scaling);
-    cx_key_f64(&h, p->res.bias);
-    cx_key_u64(&h, (uint64_t)p->res.features);
-    cx_key_u64(&h, (uint64_t)p->res.tanh_mode);
-    cx_key_f64(&h, p->train.dt);
+    key_reservoir(&h, p);
     cx_key_f64(&h, p->probe.horizon);
     cx_key_f64(&h, p->probe.tail);
     cx_key_u64(&h, (uint64_t)p->probe.random_starts);
