@@ -91,8 +91,10 @@ int cx_cmd_check(int argc, char **argv)
         cx_study_destroy(&s);
         return cx_cli_fail("coexist check", rc);
     }
-    printf("reuse: %lld distinct networks and %lld distinct drives (work units)%s\n",
-           (long long)e.networks, (long long)e.drives,
+    printf("reuse: %lld distinct networks, %lld distinct drives (work units) and %lld distinct "
+           "reservoirs (the closed-loop runs of up to %d cells of one reservoir advance "
+           "together)%s\n",
+           (long long)e.networks, (long long)e.drives, (long long)e.reservoirs, CX_CELL_GROUP,
            e.sampled ? " (estimated from a sample)" : "");
     printf("cost: %.3g GFLOP in all (%.3g per cell): about %.3g core-hours at an assumed "
            "%.2g GFLOP/s per core\n",

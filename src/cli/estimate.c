@@ -33,10 +33,11 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
     cx_idx cells = cx_study_cells(s);
     cx_idx visit = cells <= limit ? cells : limit;
     cx_idx step = cells <= limit ? 1 : cells / limit;
-    uint64_t *nk = NULL, *dk = NULL;
+    uint64_t *nk = NULL, *dk = NULL, *rk = NULL;
     double net_f = 0, drive_f = 0, own_f = 0, mem_max = 0;
     CX_ALLOC(nk, visit);
     CX_ALLOC(dk, visit);
+    CX_ALLOC(rk, visit);
     for (cx_idx v = 0; v < visit; v++) {
         cx_cell_params p;
         CX_TRY(cx_study_bind(s, v * step, &p));
@@ -44,6 +45,7 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
         cx_cell_cost_parts(&p, &a, &b, &c, &d);
         nk[v] = cx_cell_network_key(&p);
         dk[v] = cx_cell_drive_key(&p);
+        rk[v] = cx_cell_reservoir_key(&p);
         net_f += a;
         drive_f += b;
         own_f += c + d;
@@ -51,7 +53,7 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
         if (m > mem_max)
             mem_max = m;
     }
-    cx_idx nnet = distinct(nk, visit), ndrive = distinct(dk, visit);
+    cx_idx nnet = distinct(nk, visit), ndrive = distinct(dk, visit), nres = distinct(rk, visit);
     double scale = (double)cells / (double)visit;
     /* mean shared cost per visited cell, times the number of distinct keys */
     e->flops =
@@ -59,10 +61,12 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
     e->memory_max = mem_max;
     e->networks = cells <= limit ? nnet : nnet * step;
     e->drives = cells <= limit ? ndrive : ndrive * step;
+    e->reservoirs = cells <= limit ? nres : nres * step;
     e->sampled = cells > limit;
 done:
     free(nk);
     free(dk);
+    free(rk);
     return rc;
 }
 
