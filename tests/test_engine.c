@@ -287,9 +287,9 @@ static void test_units(void)
     cx_plan_destroy(&p);
 }
 
-/* Units of equal cost that run on the same reservoir come one after another, whatever the axis
- * order: here an overlap axis (4 values, one drive each) outside a spectral-radius axis (3
- * values), so that the cells of one radius are 3 apart in the grid. */
+/* Units of equal cost and one block key come one after another, whatever the axis order: here an
+ * overlap axis (4 values, one drive each) outside an input-scaling axis (3 values, one block key
+ * each), so that the cells of one block key are 3 apart in the grid. */
 static void test_units_reservoir(void)
 {
     cx_plan *p = NULL;
@@ -298,7 +298,7 @@ static void test_units_reservoir(void)
     if (rc == CX_OK)
         rc = cx_plan_add_axis(p, "overlap", "1", 4, v4);
     if (rc == CX_OK)
-        rc = cx_plan_add_axis(p, "reservoir.spectral_radius", "1", 3, v3);
+        rc = cx_plan_add_axis(p, "reservoir.input_scaling", "1", 3, v3);
     if (rc == CX_OK)
         rc = cx_plan_alloc_keys(p);
     cx_test_true("plan of 12 cells", rc == CX_OK && p->ncells == 12, "", "4 x 3");
@@ -309,7 +309,7 @@ static void test_units_reservoir(void)
         cx_plan_coords(p, c, co);
         p->network_key[c] = 77;
         p->drive_key[c] = 900 + (uint64_t)c;
-        p->reservoir_key[c] = 40 + (uint64_t)co[1];
+        p->block_key[c] = 40 + (uint64_t)co[1];
         p->cost_shared[c] = 5.0;
         p->cost_own[c] = 1.0;
     }
@@ -322,17 +322,17 @@ static void test_units_reservoir(void)
     while (rc == CX_OK && (n = cx_units_take(u, 0, 1, 0, 12, cells, &nu)) > 0)
         for (cx_idx i = 0; i < n && got < 12; i++)
             order[got++] = cells[i];
-    /* one change of reservoir key per radius: 2 changes over the 12 cells */
+    /* one change of block key per input scaling: 2 changes over the 12 cells */
     int changes = 0, rising = 1;
     for (cx_idx i = 1; i < got; i++) {
-        changes += p->reservoir_key[order[i]] != p->reservoir_key[order[i - 1]];
-        if (p->reservoir_key[order[i]] == p->reservoir_key[order[i - 1]])
+        changes += p->block_key[order[i]] != p->block_key[order[i - 1]];
+        if (p->block_key[order[i]] == p->block_key[order[i - 1]])
             rising &= order[i] > order[i - 1];
     }
     char d[96];
-    snprintf(d, sizeof d, "%lld cells handed out, %d changes of reservoir key", (long long)got,
+    snprintf(d, sizeof d, "%lld cells handed out, %d changes of block key", (long long)got,
              changes);
-    cx_test_true("units of equal cost are grouped by reservoir key, then by first cell",
+    cx_test_true("units of equal cost are grouped by block key, then by first cell",
                  got == 12 && changes == 2 && rising, d, "units.c contract");
     cx_units_destroy(&u);
     cx_plan_destroy(&p);

@@ -463,8 +463,10 @@ static void test_rows(void)
  * models, runs that leave the box, settle, or run the whole horizon; every other run has a second
  * readout, as the runs of two cells of a blend axis sharing one block, and every other pair of
  * runs a wider box and a longer early-stop window, as the runs of two cells of a task or
- * classifier axis. The batches run at each
- * vector width (8 lanes where the CPU has AVX-512F, 4, none), the single runs at the widest. */
+ * classifier axis, and every third run (shifted from case to case, so that single runs, pairs
+ * and wider blocks all have some) M scaled by 0.85, as the runs of two cells of a
+ * spectral-radius axis. The batches run at each vector width (8 lanes where the CPU has
+ * AVX-512F, 4, none), the single runs at the widest. */
 static void test_batch(void)
 {
     /* n = 91 is odd: the last nodes of every kernel (the pair kernel's partial register) run */
@@ -488,9 +490,11 @@ static void test_batch(void)
             double *r2 = malloc((size_t)(n * maxb) * sizeof *r2);
             double *y1 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y1);
             double *y2 = malloc((size_t)((steps + 1) * dim * maxb) * sizeof *y2);
+            double *val2 = NULL;
             if (!toy_make(&t, n, dim, active & 1 ? 1.4 : 0.25,
                           3301 + (uint64_t)(2 * model + (active & 1)), active == 3) ||
-                !r1 || !r2 || !y1 || !y2 || cx_res_ws_alloc(&ws, n, dim, feat) != CX_OK ||
+                (val2 = malloc((size_t)t.m.nnz * sizeof *val2)) == NULL || !r1 || !r2 || !y1 ||
+                !y2 || cx_res_ws_alloc(&ws, n, dim, feat) != CX_OK ||
                 cx_res_ws_set_batch(ws, maxb) != CX_OK) {
                 same = 0;
                 goto next;
@@ -507,6 +511,13 @@ static void test_batch(void)
                 active & 2 ? CX_TANH_EXPM1 : (active & 1 ? CX_TANH_VECTOR : CX_TANH_LIBM);
             res.m = &t.m;
             res.w_in = t.win;
+            /* the same reservoir with M scaled by 0.85, as stage_input of cell.c scales it */
+            for (cx_idx e = 0; e < t.m.nnz; e++)
+                val2[e] = t.m.val[e] * 0.85;
+            cx_csr m2 = t.m;
+            m2.val = val2;
+            cx_reservoir res2 = res;
+            res2.m = &m2;
             /* runs 2-3, 6-7, ... have limits of their own: a wider box and a longer early-stop
              * window */
             const double lo[3] = {-0.16, -0.16, -0.16}, hi[3] = {0.16, 0.16, 0.16};
@@ -518,7 +529,7 @@ static void test_batch(void)
                 cx_rng rng;
                 cx_rng_seed(&rng, 77 + (uint64_t)nb, 5);
                 double *rs[16], *ys[16];
-                const double *wo[16];
+                const double *wo[16], *mv[16];
                 const cx_res_limits *lp[16];
                 cx_idx sd1[16], sa1[16], sd2[16], sa2[16];
                 memset(y1, 0, (size_t)((steps + 1) * dim * maxb) * sizeof *y1);
@@ -529,15 +540,17 @@ static void test_batch(void)
                         r1[b * n + i] = r2[b * n + i] = cx_rng_range(&rng, -a, a);
                     wo[b] = b % 2 ? t.wout2 : t.wout;
                     lp[b] = &lims[(b / 2) % 2];
-                    if (cx_res_probe_settle(ws, &res, wo[b], 0.02, steps, lp[b]->lo, lp[b]->hi,
-                                            &lp[b]->settle, r1 + b * n, y1 + b * (steps + 1) * dim,
-                                            &sd1[b], &sa1[b]) != CX_OK)
+                    const int scaled = (b + nbw) % 3 == 1;
+                    mv[b] = scaled ? val2 : NULL;
+                    if (cx_res_probe_settle(ws, scaled ? &res2 : &res, wo[b], 0.02, steps,
+                                            lp[b]->lo, lp[b]->hi, &lp[b]->settle, r1 + b * n,
+                                            y1 + b * (steps + 1) * dim, &sd1[b], &sa1[b]) != CX_OK)
                         same = 0;
                     rs[b] = r2 + b * n;
                     ys[b] = y2 + b * (steps + 1) * dim;
                 }
                 const int old = cx_res_simd_limit(lim);
-                if (cx_res_probe_batch(ws, &res, wo, 0.02, steps, lp, nb, rs, ys, sd2, sa2) !=
+                if (cx_res_probe_batch(ws, &res, wo, mv, 0.02, steps, lp, nb, rs, ys, sd2, sa2) !=
                     CX_OK)
                     same = 0;
                 cx_res_simd_limit(old);
@@ -556,6 +569,7 @@ static void test_batch(void)
             }
         next:
             cx_res_ws_free(&ws);
+            free(val2);
             free(y2);
             free(y1);
             free(r2);
@@ -570,7 +584,8 @@ static void test_batch(void)
              cases, (long long)left, (long long)settled, (long long)full, widest);
     cx_test_true("batched probe == one run at a time, bit for bit (outputs, states, stop steps), "
                  "B = 1..16, both models, three tanh, three feature maps, one-per-node and dense "
-                 "W_in, 2 and 3 outputs, two readouts in one block, vectors of 8, 4 and 1 lanes",
+                 "W_in, 2 and 3 outputs, two readouts, two box sizes and two scalings of M in one "
+                 "block, vectors of 8, 4 and 1 lanes",
                  same && cases == 384, d, SRC_OURS);
     cx_test_true("batched probe check covers runs that leave, settle and run the whole horizon",
                  left > 0 && settled > 0 && full > 0, d, SRC_OURS);
@@ -593,25 +608,27 @@ static const char *group_yaml =
     "  training.ridge: [1.0e-3, 1.0e-20]\n"
     "  training.blend: {from: 0.0, to: 1.0, count: 5}\n";
 
-/* Cells that share the reservoir but not the tasks, the washout or the classifier's bound: each
- * cell's runs keep their own starts (drive-point starts depend on the training signals), box and
- * early-stop test inside the shared block. */
+/* Cells that share the network but not the spectral radius, the tasks, the washout or the
+ * classifier's bound: each cell's runs keep their own M, starts (drive-point starts depend on the
+ * training signals), box and early-stop test inside the shared block. The spectral radius is the
+ * last axis, so that every group holds both values; Lyapunov exponents are on, since they are
+ * computed after the block, on each cell's own M. */
 static const char *group_tasks_yaml =
     "study: {name: group-tasks-test, seed: 4127}\n"
     "reservoir: {nodes: 96, mean_degree: 3, rate: 5.0, input_scaling: 0.13}\n"
     "training: {dt: 0.02, washout: 10, length: 40, ridge: 1.0e-4}\n"
     "probe: {horizon: 60, tail: 15, random_starts: 1, early_stop: true, start_mode: drive-point, "
-    "drive_time: 2}\n"
+    "drive_time: 2, lyapunov: true, lyapunov_time: 5}\n"
     "tasks:\n"
     "  - {kind: cycle, name: near, centre: [-1.1, 0.15], radius: 0.95, speed: 2.3}\n"
     "  - {kind: cycle, name: far, centre: [1.2, -0.25], radius: 1.75, ellipticity: 0.8, speed: "
     "-1.35}\n"
     "axes:\n"
-    "  reservoir.spectral_radius: [0.4, 1.3]\n"
     "  tasks.near.radius: [0.6, 0.95, 1.3]\n"
     "  training.washout: [10, 14]\n"
     "  classify.bound: [4, 1.001]\n"
-    "  training.blend: [0.3, 0.5]\n";
+    "  training.blend: [0.3, 0.5]\n"
+    "  reservoir.spectral_radius: [0.4, 1.3]\n";
 
 static void test_group(const char *yaml, const char *name, const char *what, int want_largest)
 {
@@ -681,7 +698,8 @@ int main(void)
     test_batch();
     test_group(group_yaml, "group.yaml", "blend and ridge axes", CX_CELL_GROUP);
     test_group(group_tasks_yaml, "group-tasks.yaml",
-               "task radius, washout, classifier bound and blend axes", CX_CELL_GROUP);
+               "task radius, washout, classifier bound, blend and spectral-radius axes",
+               CX_CELL_GROUP);
     test_early_stop_demo();
     test_small_sweep();
     return cx_test_finish();

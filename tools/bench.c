@@ -63,10 +63,16 @@ static const char *const sweep_fmt =
     "  reservoir.spectral_radius: [0.4, 1.1]\n"
     "  training.blend: {from: 0.1, to: 0.9, count: %d}\n";
 
-/* A task axis: the same two tasks with the broad cycle's radius varied (how far it reaches into
- * the tight one), at one spectral radius, one seed and N = 1000, no blend axis. Every cell has
- * its own drive; their closed-loop runs can share one block (cx_cell_compute_group). */
-static const char *const task_fmt =
+/* One axis of 8 cells at one seed and N = 1000, no blend axis: the broad cycle's radius (how far
+ * it reaches into the tight one; a task axis) or the spectral radius. Every cell has its own
+ * drive; their closed-loop runs can share one block (cx_cell_compute_group). */
+#define CX_BENCH_AXES 2
+static const char *const axis_what[CX_BENCH_AXES] = {"task axis", "spectral-radius axis"};
+static const char *const axis_json[CX_BENCH_AXES] = {"task_axis", "spectral_radius_axis"};
+static const char *const axis_line[CX_BENCH_AXES] = {
+    "tasks.broad.radius: {from: 1.3, to: 2.0, count: 8}",
+    "reservoir.spectral_radius: {from: 0.4, to: 1.5, count: 8}"};
+static const char *const axis_fmt =
     "study: {name: bench-reach, seed: 4127}\n"
     "reservoir: {nodes: 1000, mean_degree: 3, rate: 5.0, input_scaling: 0.12, "
     "spectral_radius: 1.1, tanh: expm1}\n"
@@ -77,7 +83,7 @@ static const char *const task_fmt =
     "training: {dt: 0.01, washout: 10, length: 100, ridge: 1.0e-4, blend: 0.5}\n"
     "probe: {horizon: %g, tail: %g, random_starts: 0, early_stop: true}\n"
     "axes:\n"
-    "  tasks.broad.radius: {from: 1.3, to: 2.0, count: %d}\n";
+    "  %s\n";
 
 typedef struct options {
     int quick;
@@ -125,8 +131,8 @@ typedef struct sweep_figs {
     int numpy_done;
 } sweep_figs;
 
-/* The task-axis sweep computed twice with the fast paths: cells sharing a reservoir grouped,
- * and one cell at a time (each cell's two runs as one block). */
+/* An axis sweep computed twice with the fast paths: cells sharing a block grouped, and one cell
+ * at a time (each cell's two runs as one block). */
 typedef struct task_figs {
     cx_idx cells;
     double probes[2], cpu[2]; /* [0] grouped, [1] one cell at a time */
@@ -310,7 +316,8 @@ static int kernels(cx_idx n, int quick, kernel_figs *kf)
                         rs[b][i] = 0.01 * (double)((i * 7 + b) % 13);
                 }
                 double t0 = cx_clock_mono();
-                rc = cx_res_probe_batch(ws, &res, wo, 0.01, steps, NULL, nb, rs, NULL, sd, sa);
+                rc =
+                    cx_res_probe_batch(ws, &res, wo, NULL, 0.01, steps, NULL, nb, rs, NULL, sd, sa);
                 best = fmin(best, (cx_clock_mono() - t0) * per / (double)nb);
             }
             cx_res_simd_limit(old);
@@ -446,17 +453,17 @@ done:
     return rc;
 }
 
-/* The task-axis sweep, grouped and one cell at a time; labels compared. */
-static int run_task_axis(const options *o, task_figs *tk)
+/* Axis sweep `which` (axis_line), grouped and one cell at a time; labels compared. */
+static int run_axis(const options *o, int which, task_figs *tk)
 {
     int rc = CX_OK;
     cx_study *s = NULL;
     int *lab[2] = {NULL, NULL};
     double *secs = NULL;
     char text[1024];
-    int len = snprintf(text, sizeof text, task_fmt, o->quick ? 100.0 : 1000.0,
-                       o->quick ? 20.0 : 100.0, CX_CELL_GROUP);
-    CX_TRY(cx_study_load_buffer(text, (size_t)len, "bench-task-axis", &s));
+    int len = snprintf(text, sizeof text, axis_fmt, o->quick ? 100.0 : 1000.0,
+                       o->quick ? 20.0 : 100.0, axis_line[which]);
+    CX_TRY(cx_study_load_buffer(text, (size_t)len, "bench-axis", &s));
     tk->cells = cx_study_cells(s);
     CX_CALLOC(lab[0], tk->cells * CX_MAX_RUNS);
     CX_CALLOC(lab[1], tk->cells * CX_MAX_RUNS);
@@ -597,12 +604,14 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 sf->numpy_cpu_per_cell, cpu_per_cell,
                 sf->numpy_done ? sf->numpy_cpu_per_cell / cpu_per_cell : NAN,
                 sf->numpy_done ? sf->numpy_per_cell / per_cell : NAN);
-        fprintf(f,
-                "  \"task_axis\": {\"cells\": %lld, \"probe_seconds\": {\"grouped\": %.3f, "
-                "\"one_cell_at_a_time\": %.3f}, \"cpu_seconds\": {\"grouped\": %.3f, "
-                "\"one_cell_at_a_time\": %.3f}, \"labels_identical\": %s}\n}\n",
-                (long long)tk->cells, tk->probes[0], tk->probes[1], tk->cpu[0], tk->cpu[1],
-                tk->labels_same ? "true" : "false");
+        for (int a = 0; a < CX_BENCH_AXES; a++)
+            fprintf(f,
+                    "  \"%s\": {\"cells\": %lld, \"probe_seconds\": {\"grouped\": %.3f, "
+                    "\"one_cell_at_a_time\": %.3f}, \"cpu_seconds\": {\"grouped\": %.3f, "
+                    "\"one_cell_at_a_time\": %.3f}, \"labels_identical\": %s}%s\n",
+                    axis_json[a], (long long)tk[a].cells, tk[a].probes[0], tk[a].probes[1],
+                    tk[a].cpu[0], tk[a].cpu[1], tk[a].labels_same ? "true" : "false",
+                    a + 1 < CX_BENCH_AXES ? "," : "\n}");
         return;
     }
     fprintf(f, "| N | tanh | drive ns/node/stage | probe ns/node/stage | tanh ns |\n");
@@ -668,12 +677,14 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 sf->numpy_drive / sf->numpy_done, sf->numpy_gram / sf->numpy_done,
                 sf->numpy_probes / sf->numpy_done, sf->coexist_same_cells,
                 sf->numpy_cpu_per_cell / cpu_per_cell, sf->numpy_per_cell / per_cell);
-    fprintf(f,
-            "task axis (%lld cells of one reservoir, one task's radius varied, own drive each): "
-            "probes %.2f s grouped vs %.2f s one cell at a time (%.2fx); CPU seconds %.2f vs "
-            "%.2f (%.2fx); labels identical: %s\n",
-            (long long)tk->cells, tk->probes[0], tk->probes[1], tk->probes[1] / tk->probes[0],
-            tk->cpu[0], tk->cpu[1], tk->cpu[1] / tk->cpu[0], tk->labels_same ? "yes" : "NO");
+    for (int a = 0; a < CX_BENCH_AXES; a++)
+        fprintf(f,
+                "%s (%lld cells of one network, own drive each, no blend axis): probes %.2f s "
+                "grouped vs %.2f s one cell at a time (%.2fx); CPU seconds %.2f vs %.2f (%.2fx); "
+                "labels identical: %s\n",
+                axis_what[a], (long long)tk[a].cells, tk[a].probes[0], tk[a].probes[1],
+                tk[a].probes[1] / tk[a].probes[0], tk[a].cpu[0], tk[a].cpu[1],
+                tk[a].cpu[1] / tk[a].cpu[0], tk[a].labels_same ? "yes" : "NO");
 }
 
 int main(int argc, char **argv)
@@ -702,8 +713,8 @@ int main(int argc, char **argv)
     int rc = CX_OK;
     kernel_figs kf[2];
     sweep_figs sf, base;
-    task_figs tk;
-    memset(&tk, 0, sizeof tk);
+    task_figs tk[CX_BENCH_AXES];
+    memset(tk, 0, sizeof tk);
     memset(kf, 0, sizeof kf);
     memset(&sf, 0, sizeof sf);
     memset(&base, 0, sizeof base);
@@ -734,17 +745,18 @@ int main(int argc, char **argv)
     CX_TRY(run_sweep(fast, 1, &sf, lf, tf));
     CX_TRY(run_sweep(plain, 0, &base, lp, tp));
     sf.labels_same = memcmp(lf, lp, (size_t)(cells * CX_MAX_RUNS) * sizeof *lf) == 0;
-    CX_TRY(run_task_axis(&o, &tk));
+    for (int a = 0; a < CX_BENCH_AXES; a++)
+        CX_TRY(run_axis(&o, a, &tk[a]));
     int k = o.numpy_cells < cells ? o.numpy_cells : (int)cells;
     for (int i = 0; i < k; i++)
         sf.coexist_same_cells += tf[sample_cell(fast, i, k)];
     if (k > 0)
         CX_TRY(run_numpy(fast, &o, k, &sf));
-    print_report(stdout, 0, kf, nk, &sf, &base, &tk, o.quick);
+    print_report(stdout, 0, kf, nk, &sf, &base, tk, o.quick);
     if (o.json != NULL) {
         FILE *f = fopen(o.json, "w");
         CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
-        print_report(f, 1, kf, nk, &sf, &base, &tk, o.quick);
+        print_report(f, 1, kf, nk, &sf, &base, tk, o.quick);
         CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
     }
 done:

@@ -12,9 +12,9 @@
  *   solve    <- drive key + blend / weights + ridge        (W_out)
  *   probe    <- solve key + probe and classify settings    (labels and metrics)
  * and, beside the chain, the closed-loop block:
- *   reservoir <- input key + spectral radius, model, rate, leak, input scaling, bias, features,
- *               tanh evaluation, dt, probe settings, task count
- *               (cells of one reservoir key advance their runs together: cx_cell_compute_group)
+ *   block    <- input key + model, rate, leak, input scaling, bias, features, tanh evaluation,
+ *               dt, probe settings, task count (not the spectral radius)
+ *               (cells of one block key advance their runs together: cx_cell_compute_group)
  * A workspace keeps the last network and the last drive; the engine orders the cells of a work
  * unit (one drive key) one after another so that only the solve and the probes are repeated.
  */
@@ -91,13 +91,14 @@ int cx_cell_compute(cx_cell_ws *ws, const cx_cell_params *p, cx_idx cell,
 /* Most cells computed together by cx_cell_compute_group. */
 #define CX_CELL_GROUP 8
 
-/* Compute the leading cells of p[0..k-1] that run on the same reservoir as p[0] (network,
- * input, spectral radius and the other reservoir settings, dt, probe settings, task count),
- * at most CX_CELL_GROUP of them: the closed-loop runs of all of them advance together in blocks,
- * each run with its own cell's readout, start, bound box and early-stop test. Cells that differ
- * only in their readout's parameters (blend, weights, ridge) also share one drive; cells that
- * differ in their tasks, washout, length, stride or classifier settings each have their own (the
- * cells of a blend, overlap or washout axis, in the order the engine hands them out). Each result
+/* Compute the leading cells of p[0..k-1] that share p[0]'s network, input, reservoir settings
+ * other than the spectral radius, dt, probe settings and task count, at most CX_CELL_GROUP of
+ * them: the closed-loop runs of all of them advance together in blocks, each run with its own
+ * cell's scaling of M, readout, start, bound box and early-stop test. Cells that differ only in
+ * their readout's parameters (blend, weights, ridge) also share one drive; cells that differ in
+ * their spectral radius, tasks, washout, length, stride or classifier settings each have their
+ * own (the cells of a blend, spectral-radius, overlap or washout axis, in the order the engine
+ * hands them out). Each result
  * is bit for bit what cx_cell_compute gives for that cell alone, except the timings: the block's
  * probe time is shared out evenly. Always computes at least one cell. OUT: out[0..*used-1],
  * *used. Not collective. */
@@ -120,7 +121,7 @@ int cx_cell_dump(const cx_cell_ws *ws, const cx_cell_params *p, const cx_cell_re
 uint64_t cx_cell_network_key(const cx_cell_params *p);
 uint64_t cx_cell_input_key(const cx_cell_params *p);
 uint64_t cx_cell_drive_key(const cx_cell_params *p);
-uint64_t cx_cell_reservoir_key(const cx_cell_params *p);
+uint64_t cx_cell_block_key(const cx_cell_params *p);
 
 /* Estimated cost of one cell in floating-point operations when every stage runs, and its peak
  * memory in bytes. cx_cell_cost_parts splits the cost by stage: a work unit pays `network` and

@@ -56,9 +56,9 @@ typedef struct cx_plan {
      * has keys 0 and cost 0. */
     uint64_t *network_key;
     uint64_t *drive_key;
-    uint64_t *reservoir_key; /* units of equal cost are ordered by it (cx_cell_reservoir_key) */
-    double *cost_shared;     /* flops of the network and drive stages (paid once per unit) */
-    double *cost_own;        /* flops of the solve and probe stages (paid per cell) */
+    uint64_t *block_key; /* units of equal cost are ordered by it (cx_cell_block_key) */
+    double *cost_shared; /* flops of the network and drive stages (paid once per unit) */
+    double *cost_own;    /* flops of the solve and probe stages (paid per cell) */
 } cx_plan;
 
 /* Build a plan from a study (shape and texts only). OUT: *plan. Not collective. */

@@ -162,16 +162,19 @@ typedef struct cx_res_limits {
 } cx_res_limits;
 
 /* nruns closed-loop runs of one reservoir advanced together as one n x B block (batch.c). Run b
- * has the readout w_out[b] and the limits lim[b] (runs may share them, or each have their own,
- * as the cells of a blend or task axis do; lim NULL: no box, no early stop), starts from r[b]
- * (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim, or y_out / y_out[b] NULL),
- * steps_done[b] and settled_at[b] exactly as cx_res_probe_settle would for that run alone with
- * w_out[b], lim[b]->lo, lim[b]->hi and &lim[b]->settle, bit for bit, whatever nruns and whichever
- * runs share the block. nruns <= the size given to cx_res_ws_set_batch. Not collective. */
+ * has the readout w_out[b], the values m_val[b] of M (res->m->nnz values in res->m's pattern, as
+ * the cells of a spectral-radius axis have; m_val or m_val[b] NULL: res->m's own) and the
+ * limits lim[b] (lim NULL: no box, no early stop); runs may share any of these or each have
+ * their own. Run b starts from r[b] (in/out, n values) and writes y_out[b] ((nsteps + 1) x dim,
+ * or y_out / y_out[b] NULL), steps_done[b] and settled_at[b] exactly as cx_res_probe_settle
+ * would for that run alone on res with M's values m_val[b], with w_out[b], lim[b]->lo,
+ * lim[b]->hi and &lim[b]->settle, bit for bit, whatever nruns and whichever runs share the
+ * block. nruns <= the size given to cx_res_ws_set_batch. Not collective. */
 int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                       double dt, cx_idx nsteps, const cx_res_limits *const *lim, int nruns,
-                       double *const *r, double *const *y_out /* out */,
-                       cx_idx *steps_done /* out */, cx_idx *settled_at /* out */);
+                       const double *const *m_val, double dt, cx_idx nsteps,
+                       const cx_res_limits *const *lim, int nruns, double *const *r,
+                       double *const *y_out /* out */, cx_idx *steps_done /* out */,
+                       cx_idx *settled_at /* out */);
 
 /* Drive with a constant input point p for nsteps (for "drive-point" random starts). */
 int cx_res_drive_constant(cx_res_ws *ws, const cx_reservoir *res, const double *p, double dt,

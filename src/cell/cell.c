@@ -103,6 +103,7 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     cx_res_ws_free(&ws->rws);
     cx_class_ws_free(&ws->cws);
     free(ws->w_out);
+    free(ws->group_val);
     free(ws->y);
     free(ws->run_r);
     free(ws->truth);
@@ -111,6 +112,7 @@ void cx_cell_ws_destroy(cx_cell_ws **p)
     free(ws->run_ptr);
     free(ws->run_w);
     free(ws->run_lim);
+    free(ws->run_val);
     free(ws->steps_done);
     free(ws->settled_at);
     free(ws);
@@ -330,9 +332,10 @@ static void blend_weights(const cx_cell_params *p, double *w)
     }
 }
 
-/* Room for the readouts of a group (CX_CELL_GROUP of them, nfeat x dim each). Not freed with
- * the drive: the cells of a group can have drives of their own (tasks, washout) and each
- * readout must outlive the next cell's drive. */
+/* Room for the readouts of a group (CX_CELL_GROUP of them, nfeat x dim each) and its scalings
+ * of M (CX_CELL_GROUP x nnz). Not freed with the drive: the cells of a group can have drives of
+ * their own (spectral radius, tasks, washout) and each readout must outlive the next cell's
+ * drive. */
 static int ensure_readouts(cx_cell_ws *ws)
 {
     int rc = CX_OK;
@@ -343,6 +346,14 @@ static int ensure_readouts(cx_cell_ws *ws)
         ws->w_out_cap = 0;
         CX_ALLOC(ws->w_out, need);
         ws->w_out_cap = need;
+    }
+    const cx_idx nval = CX_CELL_GROUP * (ws->m0.nnz > 0 ? ws->m0.nnz : 1);
+    if (ws->group_val_cap < nval) {
+        free(ws->group_val);
+        ws->group_val = NULL;
+        ws->group_val_cap = 0;
+        CX_ALLOC(ws->group_val, nval);
+        ws->group_val_cap = nval;
     }
 done:
     return rc;
@@ -374,16 +385,19 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
         free(ws->run_ptr);
         free(ws->run_w);
         free(ws->run_lim);
+        free(ws->run_val);
         free(ws->steps_done);
         free(ws->settled_at);
         ws->run_ptr = NULL;
         ws->run_w = NULL;
         ws->run_lim = NULL;
+        ws->run_val = NULL;
         ws->steps_done = ws->settled_at = NULL;
         ws->run_ptr_cap = 0;
         CX_ALLOC(ws->run_ptr, 2 * (cx_idx)nruns);
         CX_ALLOC(ws->run_w, nruns);
         CX_ALLOC(ws->run_lim, nruns);
+        CX_ALLOC(ws->run_val, nruns);
         CX_ALLOC(ws->steps_done, nruns);
         CX_ALLOC(ws->settled_at, nruns);
         ws->run_ptr_cap = nruns;
@@ -496,15 +510,17 @@ static int same_but_readout(const cx_cell_params *a, const cx_cell_params *b)
     return memcmp(&t, a, sizeof t) == 0;
 }
 
-/* Two cells can share the closed-loop block when they run on the same reservoir: the same
- * network, input, spectral radius and other reservoir settings, time step, probe settings and
- * number of tasks, whatever their tasks, training (washout, length, stride, readout) and
- * classifier settings, as the cells of an overlap or washout axis. Each run keeps its cell's
- * readout, start, bound box and early-stop test (cx_res_probe_batch takes them per run). */
-static int same_reservoir(const cx_cell_params *a, const cx_cell_params *b)
+/* Two cells can share the closed-loop block when they share the network, the input, the
+ * reservoir settings but the spectral radius, the time step, the probe settings and the number
+ * of tasks, whatever their spectral radius, tasks, training (washout, length, stride, readout)
+ * and classifier settings, as the cells of a spectral-radius, overlap or washout axis. Each run
+ * keeps its cell's scaling of M, readout, start, bound box and early-stop test
+ * (cx_res_probe_batch takes them per run). */
+static int same_block(const cx_cell_params *a, const cx_cell_params *b)
 {
     cx_cell_params t;
     memcpy(&t, b, sizeof t);
+    t.res.spectral_radius = a->res.spectral_radius;
     memcpy(t.tasks, a->tasks, sizeof t.tasks);
     const double dt = t.train.dt;
     t.train = a->train;
@@ -665,11 +681,11 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
     cx_reservoir res;
     CX_REQUIRE(k >= 1 && p != NULL && cells != NULL && out != NULL && used != NULL, CX_ERR_INVALID,
                "cell group: %d cells or a NULL argument", k);
-    /* The leading cells that run on the same reservoir (never more than CX_CELL_GROUP, and one
-     * at a time when a dump is kept). */
+    /* The leading cells of p[0]'s block group (never more than CX_CELL_GROUP, and one at a time
+     * when a dump is kept). */
     int ng = 1;
     if (!ws->keep)
-        while (ng < k && ng < CX_CELL_GROUP && same_reservoir(p[0], p[ng]))
+        while (ng < k && ng < CX_CELL_GROUP && same_block(p[0], p[ng]))
             ng++;
     *used = ng;
     for (int g = 0; g < ng; g++)
@@ -684,6 +700,9 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
     double **run_state = NULL, **run_y = NULL;
     const double **run_w = NULL;
     const cx_res_limits **run_lim = NULL;
+    const double **run_val = NULL;
+    const double *val_of[CX_CELL_GROUP]; /* each cell's values of M (shared by equal scalings) */
+    double scale_of[CX_CELL_GROUP];
     int q = 0, prev = -1; /* runs set up so far; the last cell whose readout was solved */
     for (int g = 0; g < ng; g++) {
         CX_TRY(cell_solve(ws, p[g], &out[g], &res, g));
@@ -693,10 +712,23 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
             run_y = ws->run_ptr + ng * nruns;
             run_w = ws->run_w;
             run_lim = ws->run_lim;
+            run_val = ws->run_val;
         }
         if (out[g].status != CX_CELL_NOT_DONE)
             continue;
         const double t0 = cx_clock_mono();
+        /* this cell's M (stage_input scaled it), kept for the block: the slot of an earlier cell
+         * with the same scaling, else its own copy */
+        val_of[g] = NULL;
+        scale_of[g] = ws->m_scale;
+        for (int h = 0; h < g && val_of[g] == NULL; h++)
+            if (out[h].status == CX_CELL_NOT_DONE && scale_of[h] == ws->m_scale)
+                val_of[g] = val_of[h];
+        if (val_of[g] == NULL) {
+            double *slot = ws->group_val + (cx_idx)g * (ws->m0.nnz > 0 ? ws->m0.nnz : 1);
+            memcpy(slot, ws->m.val, (size_t)ws->m.nnz * sizeof *slot);
+            val_of[g] = slot;
+        }
         probe_setup_of(ws, p[g], &ps[g]);
         lim[g] = (cx_res_limits){ps[g].lo, ps[g].hi, ps[g].settle};
         const cx_idx n = p[g]->net.nodes;
@@ -712,6 +744,7 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
             run_y[q] = ws->y + (cx_idx)q * len;
             run_w[q] = ws->w_out + (cx_idx)g * ws->nfeat * p[g]->dim;
             run_lim[q] = &lim[g];
+            run_val[q] = val_of[g];
         }
         prev = g;
         out[g].time.probes = cx_clock_mono() - t0;
@@ -722,14 +755,14 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
 
     /* Stage 5: the runs of all cells whose readout was solved, advanced together in blocks of
      * cx_res_batch_runs (bit for bit what one run at a time gives), then each cell judged
-     * against its own series and attractors (staged again: the series cache holds one cell's). */
+     * against its own M, series and attractors (staged again: the caches hold one cell's). */
     double t0 = cx_clock_mono();
     const int batch = cx_res_batch_runs(p[0]->res.tanh_mode);
     for (int j = 0; j < total; j += batch) {
         int nb = total - j < batch ? total - j : batch;
-        CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, p[0]->train.dt, ws->horizon,
-                                  run_lim + j, nb, run_state + j, run_y + j, ws->steps_done + j,
-                                  ws->settled_at + j));
+        CX_TRY(cx_res_probe_batch(ws->rws, &res, run_w + j, run_val + j, p[0]->train.dt,
+                                  ws->horizon, run_lim + j, nb, run_state + j, run_y + j,
+                                  ws->steps_done + j, ws->settled_at + j));
     }
     /* the block's time, shared out over the cells by their runs (all cells have as many) */
     const double t_probe = (cx_clock_mono() - t0) / (double)(total / nruns);
@@ -738,6 +771,8 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
         if (out[g].status != CX_CELL_NOT_DONE)
             continue;
         out[g].time.probes += t_probe;
+        /* its M (for the Lyapunov exponent), series and attractors */
+        CX_TRY(stage_input(ws, p[g]));
         CX_TRY(stage_series(ws, p[g]));
         probe_setup_of(ws, p[g], &ps[g]);
         CX_TRY(cell_judge(ws, p[g], &res, &ps[g], run_w[q], run_state + q, run_y + q,

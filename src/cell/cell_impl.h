@@ -67,15 +67,19 @@ struct cx_cell_ws {
                       cell's, which cx_cell_dump writes); kept across drives, since the cells
                       of a group may each have their own */
     cx_idx w_out_cap;
+    double *group_val; /* CX_CELL_GROUP x nnz: the values of M of the cells of a group */
+    cx_idx group_val_cap;
     double *work;  /* nfeat^2 + dim * nfeat */
     double *r;     /* n */
     double *y;     /* nruns x (horizon + 1) x dim: every run's outputs */
     double *run_r; /* nruns x n: every run's state (start, then end) */
     cx_idx run_r_cap;
-    /* per run of a group: state and output pointers (2 x cap), readouts, limits, stop steps */
+    /* per run of a group: state and output pointers (2 x cap), readouts, limits, values of M,
+     * stop steps */
     double **run_ptr;
     const double **run_w;
     const cx_res_limits **run_lim;
+    const double **run_val;
     cx_idx *steps_done, *settled_at;
     int run_ptr_cap;
     double *truth; /* (horizon + 1) x dim: a task's true continuation at whole steps */

@@ -119,12 +119,14 @@ uint64_t cx_cell_input_key(const cx_cell_params *p)
     return key_finish(h);
 }
 
-/* The input key and what else makes the reservoir's equations: spectral radius, model and its
- * settings, features, tanh evaluation, time step (shared by the drive and reservoir keys). */
-static void key_reservoir(uint64_t *h, const cx_cell_params *p)
+/* The input key and what else makes the reservoir's equations: spectral radius (with_rho),
+ * model and its settings, features, tanh evaluation, time step (shared by the drive and block
+ * keys). */
+static void key_reservoir(uint64_t *h, const cx_cell_params *p, int with_rho)
 {
     key_input(h, p);
-    cx_key_f64(h, p->res.spectral_radius);
+    if (with_rho)
+        cx_key_f64(h, p->res.spectral_radius);
     cx_key_u64(h, (uint64_t)p->res.model);
     cx_key_f64(h, p->res.rate);
     cx_key_f64(h, p->res.leak);
@@ -138,7 +140,7 @@ static void key_reservoir(uint64_t *h, const cx_cell_params *p)
 uint64_t cx_cell_drive_key(const cx_cell_params *p)
 {
     uint64_t h = FNV_OFFSET;
-    key_reservoir(&h, p);
+    key_reservoir(&h, p, 1);
     cx_key_f64(&h, p->train.washout);
     cx_key_f64(&h, p->train.length);
     cx_key_u64(&h, (uint64_t)p->train.stride);
@@ -148,14 +150,14 @@ uint64_t cx_cell_drive_key(const cx_cell_params *p)
     return key_finish(h);
 }
 
-/* The cells that run on the same reservoir and can share the closed-loop block
- * (cx_cell_compute_group's test): input key, reservoir settings, time step, probe settings and
- * task count. The engine orders units of equal cost by it; grouping itself compares the
- * parameters, so a collision of this hash costs speed only. */
-uint64_t cx_cell_reservoir_key(const cx_cell_params *p)
+/* The cells that can share the closed-loop block (cx_cell_compute_group's test): input key,
+ * reservoir settings but the spectral radius, time step, probe settings and task count. The
+ * engine orders units of equal cost by it; grouping itself compares the parameters, so a
+ * collision of this hash costs speed only. */
+uint64_t cx_cell_block_key(const cx_cell_params *p)
 {
     uint64_t h = FNV_OFFSET;
-    key_reservoir(&h, p);
+    key_reservoir(&h, p, 0);
     cx_key_f64(&h, p->probe.horizon);
     cx_key_f64(&h, p->probe.tail);
     cx_key_u64(&h, (uint64_t)p->probe.random_starts);
@@ -227,14 +229,17 @@ double cx_cell_memory_bytes(const cx_cell_params *p)
                             cx_cell_steps(p->train.length, p->train.dt) +
                             cx_cell_steps(p->probe.horizon, p->train.dt));
     double dense_eig = n <= 1500 ? 8.0 * n * n * 2.0 : 0.0;
-    /* a workspace computes up to CX_CELL_GROUP cells that share the reservoir at once
-     * (cx_cell_compute_group): their readouts, run states and outputs are held together */
+    /* a workspace computes up to CX_CELL_GROUP cells of one block group at once
+     * (cx_cell_compute_group): their readouts, values of M, run states and outputs are held
+     * together */
     const double group = CX_CELL_GROUP;
     const double runs = (double)(p->ntasks + p->probe.random_starts);
     return 8.0 *
                (tasks * (nf * nf + nf * dim) /* G_k, C_k */
                 + nf * nf + nf * dim         /* solve workspace */
                 + group * nf * dim           /* the group's readouts */
+                + group * nnz                /* the group's values of M */
+                + 24.0 * nnz                 /* the block's values of M, column by column */
                 + tasks * 2.0 * steps * dim  /* task signals */
                 + group * runs * ((double)cx_cell_steps(p->probe.horizon, p->train.dt) + 1.0) *
                       dim                            /* every run's outputs */

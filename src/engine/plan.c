@@ -68,7 +68,7 @@ int cx_plan_alloc_keys(cx_plan *p)
     int rc = CX_OK;
     CX_CALLOC(p->network_key, p->ncells);
     CX_CALLOC(p->drive_key, p->ncells);
-    CX_CALLOC(p->reservoir_key, p->ncells);
+    CX_CALLOC(p->block_key, p->ncells);
     CX_CALLOC(p->cost_shared, p->ncells);
     CX_CALLOC(p->cost_own, p->ncells);
 done:
@@ -122,7 +122,7 @@ int cx_plan_keys(cx_plan *p, const cx_study *s)
         if (brc == CX_ERR_INVALID) {
             /* An invalid combination is an outcome of the grid, computed as a failed cell. */
             cx_err_clear();
-            p->network_key[c] = p->drive_key[c] = p->reservoir_key[c] = 0;
+            p->network_key[c] = p->drive_key[c] = p->block_key[c] = 0;
             p->cost_shared[c] = p->cost_own[c] = 0.0;
             continue;
         }
@@ -131,7 +131,7 @@ int cx_plan_keys(cx_plan *p, const cx_study *s)
         cx_cell_cost_parts(cp, &net, &drive, &solve, &probe);
         p->network_key[c] = cx_cell_network_key(cp);
         p->drive_key[c] = cx_cell_drive_key(cp);
-        p->reservoir_key[c] = cx_cell_reservoir_key(cp);
+        p->block_key[c] = cx_cell_block_key(cp);
         p->cost_shared[c] = net + drive;
         p->cost_own[c] = solve + probe;
     }
@@ -164,7 +164,7 @@ void cx_plan_destroy(cx_plan **pp)
     }
     free(p->network_key);
     free(p->drive_key);
-    free(p->reservoir_key);
+    free(p->block_key);
     free(p->cost_shared);
     free(p->cost_own);
     free(p->source);

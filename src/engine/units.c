@@ -63,22 +63,22 @@ static int cmp_key(const void *a, const void *b)
     return (x->cell > y->cell) - (x->cell < y->cell);
 }
 
-/* Order by cost, largest first; ties by reservoir key, so that units whose cells can share the
- * closed-loop block (an overlap or washout axis at one spectral radius) come one after another
- * whatever the axis order, then by first cell so that the order is reproducible. C11's qsort
- * takes no context argument, so the cell array and the plan's reservoir keys are passed through
+/* Order by cost, largest first; ties by block key, so that units whose cells can share the
+ * closed-loop block (a spectral-radius, overlap or washout axis) come one after another whatever
+ * the axis order, then by first cell so that the order is reproducible. C11's qsort takes no
+ * context argument, so the cell array and the plan's block keys are passed through
  * these file-level pointers, set only inside cx_units_build (which runs on one thread: rank 0's
  * coordinator). */
 static const int64_t *sort_cells;
-static const uint64_t *sort_res;
+static const uint64_t *sort_block;
 static int cmp_unit(const void *a, const void *b)
 {
     const unit *x = a, *y = b;
     if (x->cost != y->cost)
         return x->cost > y->cost ? -1 : 1;
     int64_t cx = sort_cells[x->start], cy = sort_cells[y->start];
-    if (sort_res != NULL && sort_res[cx] != sort_res[cy])
-        return sort_res[cx] < sort_res[cy] ? -1 : 1;
+    if (sort_block != NULL && sort_block[cx] != sort_block[cy])
+        return sort_block[cx] < sort_block[cy] ? -1 : 1;
     return (cx > cy) - (cx < cy);
 }
 
@@ -128,7 +128,7 @@ int cx_units_build(const cx_plan *plan, const uint8_t *todo, int max_unit_cells,
     }
     /* Groups: runs of units with equal network key; sort units inside, then the groups. */
     sort_cells = u->cells;
-    sort_res = plan->reservoir_key;
+    sort_block = plan->block_key;
     for (cx_idx i = 0; i < u->nunits;) {
         uint64_t net = keys[u->units[i].start].net;
         cx_idx j = i + 1;

@@ -1,19 +1,22 @@
 /* coexist: several closed-loop runs of one reservoir advanced together.
  *
  * The runs of a cell share M, W_in and b, and differ in their start states; runs of several cells
- * on one reservoir (along a blend, overlap or washout axis, say) differ in W_out, bound box and
- * early-stop test as well, so every run carries its own readout and limits. B of them are stored as
- * one n x B row-major block X (X[i B + c] = node i of run c) and every RK4 stage (Lu, Hunt & Ott
- * 2018, Chaos 28, 061104; see model.c for the stage equations) is one sparse-times-block product:
- * each stored entry M_ij is read once and applied to the B values of node j, which sit side by
- * side; tanh runs over the whole block (tanh.c); the readout W_out q(x) of the B runs is B
- * independent sums, each with its run's W_out. The arithmetic of each run is, operation for
- * operation, that of the single-run kernels (model.c, probe.c): pre-activation b_i + input, then
- * the entries of row i in storage order; the same stage update; the readout summed node by node,
- * linear term then square. So a run's outputs, end state and stop step are bit-identical to
- * cx_res_probe_settle's whatever B and whichever runs share the block. Runs never interact: a
- * column is only ever combined with itself. A run that leaves the bound box or settles drops out
- * and the block is compacted, so stopped runs cost nothing.
+ * of one block group (along a blend, spectral-radius, overlap or washout axis, say) differ in
+ * W_out, bound box, early-stop test and the scaling of M as well, so every run carries its own
+ * readout, limits and values of M. B of them are stored as one n x B row-major block X (X[i B + c]
+ * = node i of run c) and every RK4 stage (Lu, Hunt & Ott 2018, Chaos 28, 061104; see model.c for
+ * the stage equations) is one sparse-times-block product: each stored entry M_ij is read once and
+ * applied to the B values of node j, which sit side by side; tanh runs over the whole block
+ * (tanh.c); the readout W_out q(x) of the B runs is B independent sums, each with its run's W_out.
+ * The arithmetic of each run is, operation for operation, that of the single-run kernels (model.c,
+ * probe.c): pre-activation b_i + input, then the entries of row i in storage order; the same stage
+ * update; the readout summed node by node, linear term then square. So a run's outputs, end state
+ * and stop step are bit-identical to cx_res_probe_settle's whatever B and whichever runs share the
+ * block. Runs never interact: a column is only ever combined with itself. A run that leaves the
+ * bound box or settles drops out and the block is compacted, so stopped runs cost nothing. Where
+ * the runs have their own values of M, they are laid out column by column like the block (ws->bval)
+ * and every kernel loads them per run instead of broadcasting one: the same product as the run's
+ * own scaled M gives.
  */
 #include <math.h>
 #include <stdlib.h>
@@ -100,11 +103,21 @@ CX_INLINE void preact_node_block(const cx_res_ws *restrict ws, const cx_csr *res
             si[c] = v;
         }
     }
-    for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++) {
-        const double v = m->val[p];
-        const double *restrict xj = x + m->col[p] * nb;
-        for (int c = 0; c < nb; c++)
-            si[c] += v * xj[c];
+    if (ws->bval != NULL) {
+        /* each column with its own values of M (cells of several spectral radii) */
+        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++) {
+            const double *restrict v = ws->bval + p * nb;
+            const double *restrict xj = x + m->col[p] * nb;
+            for (int c = 0; c < nb; c++)
+                si[c] += v[c] * xj[c];
+        }
+    } else {
+        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++) {
+            const double v = m->val[p];
+            const double *restrict xj = x + m->col[p] * nb;
+            for (int c = 0; c < nb; c++)
+                si[c] += v * xj[c];
+        }
     }
     for (int c = 0; c < nb; c++)
         s[i * nb + c] = si[c];
@@ -308,13 +321,51 @@ static int block_kernel(int most, int nb, int *w)
     return lanes;
 }
 
-int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
-                       double dt, cx_idx nsteps, const cx_res_limits *const *lim, int nruns,
-                       double *const *r, double *const *y_out, cx_idx *steps_done,
-                       cx_idx *settled_at)
+/* The values of M the block's w columns run with: when the nb live columns share one array, the
+ * view mv takes it (and the one-run row layout is rebuilt if it changed: rows_for is the array
+ * it was built from) and ws->bval is NULL; else ws->bval holds every column's values, the
+ * padding columns those of column 0. */
+static int block_values(cx_res_ws *ws, cx_reservoir *rv, cx_csr *mv, const double *const *vcol,
+                        int nb, int w, const double **rows_for)
 {
     int rc = CX_OK;
+    int mixed = 0;
+    for (int c = 1; c < nb; c++)
+        mixed |= vcol[c] != vcol[0];
+    mv->val = (double *)vcol[0]; /* read only: the kernels never write M */
+    ws->bval = NULL;
+    if (!mixed) {
+        if (*rows_for != vcol[0]) {
+            CX_TRY(cx_res_rows_build(ws, rv));
+            *rows_for = vcol[0];
+        }
+        return CX_OK;
+    }
+    const cx_idx nnz = mv->nnz;
+    if (ws->bval_cap < nnz * w) {
+        free(ws->bval_buf);
+        ws->bval_buf = NULL;
+        ws->bval_cap = 0;
+        CX_ALLOC(ws->bval_buf, nnz * w);
+        ws->bval_cap = nnz * w;
+    }
+    for (cx_idx p = 0; p < nnz; p++)
+        for (int c = 0; c < w; c++)
+            ws->bval_buf[p * w + c] = vcol[c < nb ? c : 0][p];
+    ws->bval = ws->bval_buf;
+done:
+    return rc;
+}
+
+int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *const *w_out,
+                       const double *const *m_val, double dt, cx_idx nsteps,
+                       const cx_res_limits *const *lim, int nruns, double *const *r,
+                       double *const *y_out, cx_idx *steps_done, cx_idx *settled_at)
+{
+    int rc = CX_OK;
+    const double *rows_for = NULL; /* the values of M the one-run row layout was built from */
     CX_TRY(cx_res_meet(ws, res));
+    rows_for = res->m->val;
     CX_REQUIRE(w_out != NULL && r != NULL && steps_done != NULL && settled_at != NULL &&
                    nsteps >= 0,
                CX_ERR_INVALID, "batch probe: NULL argument or %lld steps", (long long)nsteps);
@@ -338,8 +389,13 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     const cx_idx n = ws->n;
     const int dim = ws->dim;
     const int most = cx_res_fused_lanes(res);
+    /* the block runs on a view of res whose M takes the values of its runs (block_values) */
+    cx_csr mv = *res->m;
+    cx_reservoir rv = *res;
+    rv.m = &mv;
     int run[CX_MAX_RUNS + 8], keep[CX_MAX_RUNS + 8];
     const double *wcol[CX_MAX_RUNS + 8]; /* the readout of each column of the block */
+    const double *vcol[CX_MAX_RUNS + 8]; /* the values of M of each column */
     cx_idx still[CX_MAX_RUNS];
     double y[(CX_MAX_RUNS + 8) * CX_MAX_DIM], yprev[CX_MAX_RUNS * CX_MAX_DIM];
     int nb = 0;
@@ -355,6 +411,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             continue;
         run[nb] = b;
         wcol[nb] = w_out[b];
+        vcol[nb] = m_val != NULL && m_val[b] != NULL ? m_val[b] : res->m->val;
         still[nb] = 0;
         memcpy(y + nb * dim, yb, (size_t)dim * sizeof *yb);
         memcpy(yprev + nb * dim, yb, (size_t)dim * sizeof *yb);
@@ -374,8 +431,10 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
     }
     if (lanes)
         cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
+    if (nb > 0)
+        CX_TRY(block_values(ws, &rv, &mv, vcol, nb, w, &rows_for));
     for (cx_idx i = 1; i <= nsteps && nb > 0; i++) {
-        closed_step_block(ws, res, wcol, dt, w, lanes, any_settle, y);
+        closed_step_block(ws, &rv, wcol, dt, w, lanes, any_settle, y);
         int stopped = 0;
         for (int c = 0; c < nb; c++) {
             const int b = run[c];
@@ -431,6 +490,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
                     continue;
                 run[to] = run[c];
                 wcol[to] = wcol[c];
+                vcol[to] = vcol[c];
                 still[to] = still[c];
                 memcpy(y + to * dim, y + c * dim, (size_t)dim * sizeof *y);
                 memcpy(yprev + to * dim, yprev + c * dim, (size_t)dim * sizeof *y);
@@ -444,6 +504,7 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             w = w_new;
             if (lanes)
                 cx_res_pack_readouts(n, dim, ws->features, w, wcol, ws->bpack, pconst_of(ws, w));
+            CX_TRY(block_values(ws, &rv, &mv, vcol, nb, w, &rows_for));
         } else if (stopped == nb) {
             nb = 0;
         }
@@ -454,5 +515,11 @@ int cx_res_probe_batch(cx_res_ws *ws, const cx_reservoir *res, const double *con
             r[run[c]][k] = ws->bx[k * w + c];
     }
 done:
+    ws->bval = NULL;
+    /* the row layout back on res's own values, as cx_res_meet left it */
+    if (rows_for != NULL && rows_for != res->m->val) {
+        const int rrc = cx_res_rows_build(ws, res);
+        rc = rc == CX_OK ? rrc : rc;
+    }
     return rc;
 }

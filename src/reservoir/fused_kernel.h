@@ -20,6 +20,7 @@ CXV_FN(fused_stage)(const cx_res_ws *restrict ws, const cx_reservoir *restrict r
     const cx_idx *restrict rowptr = res->m->rowptr;
     const cx_idx *restrict col = res->m->col;
     const double *restrict val = res->m->val;
+    const double *restrict bval = ws->bval; /* per-column values of M, or NULL */
     /* the inputs of the columns, coordinate by coordinate: ut[j][c] = u[c][j] */
     double ut[CX_MAX_DIM * CX_MAX_RUNS];
     for (int c = 0; c < w; c++)
@@ -55,11 +56,21 @@ CXV_FN(fused_stage)(const cx_res_ws *restrict ws, const cx_reservoir *restrict r
                             CXV_ADD(si[q], CXV_MUL(wj, CXV_LOAD(ut + j * w + CX_SIMD_LANES * q)));
                 }
             }
-            for (cx_idx p = rowptr[i]; p < rowptr[i + 1]; p++) {
-                const CXV v = CXV_SET1(val[p]);
-                const double *xj = x + col[p] * w;
-                for (int q = 0; q < nq; q++)
-                    si[q] = CXV_ADD(si[q], CXV_MUL(v, CXV_LOAD(xj + CX_SIMD_LANES * q)));
+            if (bval != NULL) {
+                /* each column with its own values of M (cells of several spectral radii) */
+                for (cx_idx p = rowptr[i]; p < rowptr[i + 1]; p++) {
+                    const double *xj = x + col[p] * w, *vp = bval + p * w;
+                    for (int q = 0; q < nq; q++)
+                        si[q] = CXV_ADD(si[q], CXV_MUL(CXV_LOAD(vp + CX_SIMD_LANES * q),
+                                                       CXV_LOAD(xj + CX_SIMD_LANES * q)));
+                }
+            } else {
+                for (cx_idx p = rowptr[i]; p < rowptr[i + 1]; p++) {
+                    const CXV v = CXV_SET1(val[p]);
+                    const double *xj = x + col[p] * w;
+                    for (int q = 0; q < nq; q++)
+                        si[q] = CXV_ADD(si[q], CXV_MUL(v, CXV_LOAD(xj + CX_SIMD_LANES * q)));
+                }
             }
         }
         const int nv = m * nq;

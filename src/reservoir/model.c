@@ -121,6 +121,7 @@ void cx_res_ws_free(cx_res_ws **pws)
     free(ws->rows_len);
     free(ws->rows_node);
     free(ws->bpack);
+    free(ws->bval_buf);
     free(ws->bpre);
     free(ws->bacc);
     free(ws->bxb);

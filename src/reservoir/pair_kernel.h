@@ -49,8 +49,13 @@ CXV_FN(pair_preact)(const cx_res_ws *restrict ws, const cx_csr *restrict m, cons
         for (int j = 0; j < DIM; j++)
             s = _mm_add_pd(s, _mm_mul_pd(_mm_set1_pd(w[j]), ut[j]));
     }
-    for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++)
-        s = _mm_add_pd(s, _mm_mul_pd(_mm_set1_pd(m->val[p]), _mm_loadu_pd(x + m->col[p] * 2)));
+    if (ws->bval != NULL) /* each run with its own values of M (several spectral radii) */
+        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++)
+            s = _mm_add_pd(
+                s, _mm_mul_pd(_mm_loadu_pd(ws->bval + p * 2), _mm_loadu_pd(x + m->col[p] * 2)));
+    else
+        for (cx_idx p = m->rowptr[i]; p < m->rowptr[i + 1]; p++)
+            s = _mm_add_pd(s, _mm_mul_pd(_mm_set1_pd(m->val[p]), _mm_loadu_pd(x + m->col[p] * 2)));
     return s;
 }
 

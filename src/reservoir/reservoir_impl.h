@@ -56,6 +56,12 @@ struct cx_res_ws {
     double *bacc;
     double *bpre;
     double *bpack; /* the columns' readouts packed node by node for the fused kernel (fused.c) */
+    /* Runs of one block with different values of M (cells of several spectral radii): entry p's
+     * value for column c at bval[p w + c] (w the block's width), read by every block kernel in
+     * place of M's own; NULL when the columns share M's values. bval_cap: doubles allocated. */
+    const double *bval;
+    double *bval_buf;
+    cx_idx bval_cap;
 };
 
 /* Check that `res` fits the workspace and build the input tables. */
