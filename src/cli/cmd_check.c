@@ -91,17 +91,16 @@ int cx_cmd_check(int argc, char **argv)
         cx_study_destroy(&s);
         return cx_cli_fail("coexist check", rc);
     }
-    printf("reuse: %lld distinct networks, %lld distinct drives (work units) and %lld distinct "
-           "reservoirs (the closed-loop runs of up to %d cells of one reservoir advance "
-           "together)%s\n",
-           (long long)e.networks, (long long)e.drives, (long long)e.reservoirs, CX_CELL_GROUP,
+    printf("reuse: %lld distinct networks, %lld distinct drives (work units) and %lld block "
+           "groups (up to %d cells of one group advance their closed-loop runs together)%s\n",
+           (long long)e.networks, (long long)e.drives, (long long)e.blocks, CX_CELL_GROUP,
            e.sampled ? " (estimated from a sample)" : "");
     printf("cost: %.3g GFLOP in all (%.3g per cell): about %.3g core-hours at an assumed "
            "%.2g GFLOP/s per core\n",
            e.flops * 1e-9, e.flops * 1e-9 / (double)cells, e.flops / CX_ASSUMED_FLOP_RATE / 3600.0,
            CX_ASSUMED_FLOP_RATE * 1e-9);
-    printf("memory: at most %.1f MiB per rank (a rank computes one cell, or up to %d cells that "
-           "share a reservoir, at a time)\n",
+    printf("memory: at most %.1f MiB per rank (a rank computes one cell, or up to %d cells of "
+           "one block group, at a time)\n",
            e.memory_max / 1048576.0, CX_CELL_GROUP);
     cx_study_destroy(&s);
     return CX_EXIT_OK;

@@ -45,7 +45,7 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
         cx_cell_cost_parts(&p, &a, &b, &c, &d);
         nk[v] = cx_cell_network_key(&p);
         dk[v] = cx_cell_drive_key(&p);
-        rk[v] = cx_cell_reservoir_key(&p);
+        rk[v] = cx_cell_block_key(&p);
         net_f += a;
         drive_f += b;
         own_f += c + d;
@@ -53,7 +53,7 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
         if (m > mem_max)
             mem_max = m;
     }
-    cx_idx nnet = distinct(nk, visit), ndrive = distinct(dk, visit), nres = distinct(rk, visit);
+    cx_idx nnet = distinct(nk, visit), ndrive = distinct(dk, visit), nblk = distinct(rk, visit);
     double scale = (double)cells / (double)visit;
     /* mean shared cost per visited cell, times the number of distinct keys */
     e->flops =
@@ -61,7 +61,7 @@ int cx_estimate_study(const cx_study *s, cx_estimate *e)
     e->memory_max = mem_max;
     e->networks = cells <= limit ? nnet : nnet * step;
     e->drives = cells <= limit ? ndrive : ndrive * step;
-    e->reservoirs = cells <= limit ? nres : nres * step;
+    e->blocks = cells <= limit ? nblk : nblk * step;
     e->sampled = cells > limit;
 done:
     free(nk);

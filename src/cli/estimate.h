@@ -9,7 +9,7 @@ typedef struct cx_estimate {
     double memory_max; /* bytes of the largest cell */
     cx_idx networks;   /* distinct network keys */
     cx_idx drives;     /* distinct drive keys (work units) */
-    cx_idx reservoirs; /* distinct reservoir keys (cells whose closed-loop runs can share blocks) */
+    cx_idx blocks;     /* distinct block keys (cells whose closed-loop runs can share blocks) */
     int sampled;       /* 1 when the grid was too large to bind every cell */
 } cx_estimate;
 
