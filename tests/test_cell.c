@@ -19,7 +19,7 @@ static const char *base_yaml =
     "reservoir: {nodes: 120, mean_degree: 3, rate: 5.0, input_scaling: 0.15, spectral_radius: "
     "1.1}\n"
     "training: {dt: 0.02, washout: 10, length: 40, ridge: 0.5}\n"
-    "probe: {horizon: 40, tail: 15, random_starts: 2}\n"
+    "probe: {horizon: 40, tail: 15, random_starts: 2, start_mode: drive-point, drive_time: 2}\n"
     "tasks:\n"
     "  - {kind: cycle, name: left, centre: [-1.3, 0.2], radius: 1.05, speed: 2.2}\n"
     "  - {kind: cycle, name: right, centre: [1.1, -0.35], radius: 1.6, speed: -1.4}\n"
@@ -104,6 +104,37 @@ static void test_determinism_and_reuse(void)
                  "stage table in cell.h");
     cx_test_true("a reused drive gives results bit-identical to a fresh one", ok, "memcmp",
                  "reproducibility contract, DESIGN.md");
+    /* The step counters (the benchmark's work count): one drive of 2 tasks over washout +
+     * length, each cell's random starts driven for probe.drive_time, and every closed-loop run
+     * to the horizon unless it diverged or settled on a fixed point (analytic count). */
+    {
+        cx_cell_params p;
+        int64_t drive = -1, probe = -1;
+        cx_cell_ws_steps(ws2, &drive, &probe);
+        ok = cx_study_bind(s, same_drive[0], &p) == CX_OK;
+        const int64_t nn = p.net.nodes, h = cx_cell_steps(p.probe.horizon, p.train.dt);
+        const int64_t want_drive = (int64_t)p.ntasks *
+                                       (cx_cell_steps(p.train.washout, p.train.dt) +
+                                        cx_cell_steps(p.train.length, p.train.dt)) *
+                                       nn +
+                                   (p.probe.start_mode == CX_START_DRIVE_POINT
+                                        ? (int64_t)k * p.probe.random_starts *
+                                              cx_cell_steps(p.probe.drive_time, p.train.dt) * nn
+                                        : 0);
+        int64_t lo = 0, hi = 0;
+        for (int i = 0; i < k; i++)
+            for (int j = 0; j < res[same_drive[i]].nruns; j++) {
+                const int out = res[same_drive[i]].runs[j].outcome;
+                hi += h * nn;
+                lo += out == CX_OUT_DIVERGED || out == CX_OUT_FIXED_POINT ? 0 : h * nn;
+            }
+        snprintf(d, sizeof d, "drive %lld (expected %lld), probe %lld in [%lld, %lld]",
+                 (long long)drive, (long long)want_drive, (long long)probe, (long long)lo,
+                 (long long)hi);
+        cx_test_true("step counters: drive steps counted exactly, closed-loop steps bounded",
+                     ok && drive == want_drive && probe >= lo && probe <= hi && hi > 0, d,
+                     "analytic count");
+    }
 
     /* A fresh workspace in another order gives the same bits. */
     cx_cell_ws_destroy(&ws2);

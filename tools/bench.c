@@ -97,6 +97,10 @@ typedef struct options {
 static const char *const tanh_names[CX_BENCH_TANHS] = {"libm", "vector", "expm1"};
 #define CX_BENCH_FAST CX_TANH_EXPM1
 
+/* The network sizes of the kernel figures and of the sweep. */
+#define CX_BENCH_SIZES 2
+static const cx_idx bench_sizes[CX_BENCH_SIZES] = {1000, 500};
+
 /* Block sizes of the batched probe figures. */
 #define CX_BENCH_NB 5
 static const int bench_nb[CX_BENCH_NB] = {1, 2, 4, 8, 16};
@@ -123,6 +127,8 @@ typedef struct sweep_figs {
     double cpu; /* CPU seconds of the whole sweep */
     double gram_gflops;
     int64_t runs, settled;
+    /* stepping work by network size (bench_sizes), RK4 steps x nodes (cx_cell_ws_steps) */
+    int64_t drive_steps[CX_BENCH_SIZES], probe_steps[CX_BENCH_SIZES];
     int64_t outcomes[8];
     int labels_same;
     double numpy_per_cell, numpy_drive, numpy_gram, numpy_probes, numpy_total, numpy_cpu;
@@ -439,7 +445,16 @@ static int run_sweep(const cx_study *s, int group, sweep_figs *sf, int *labels,
             pp[k] = &p[k];
             ids[k] = first + k;
         }
+        int64_t d0, p0, d1, p1;
+        cx_cell_ws_steps(ws, &d0, &p0);
         CX_TRY(cx_cell_compute_group(ws, pp, ids, k, rg, &used));
+        cx_cell_ws_steps(ws, &d1, &p1);
+        /* the cells of a group share the network, so its size */
+        for (int i = 0; i < CX_BENCH_SIZES; i++)
+            if (p[0].net.nodes == bench_sizes[i]) {
+                sf->drive_steps[i] += d1 - d0;
+                sf->probe_steps[i] += p1 - p0;
+            }
         for (int g = 0; g < used; g++)
             account(&p[g], &rg[g], first + g, sf, labels, cell_seconds);
         first += used;
@@ -542,11 +557,33 @@ done:
     return rc;
 }
 
+/* The sweep as it would run if every drive and probe step took its bound (kf[i] for the
+ * networks of bench_sizes[i]), the other stages (network, Gram, solve, classify) as measured:
+ * seconds of the stepping kernels at the bound, and of the whole sweep. Every step counted is one
+ * the sweep takes with its fast paths (early stops included), so no faster kernel can beat it
+ * without changing the arithmetic or the number of steps. */
+static void at_bound(const kernel_figs *kf, int nk, const sweep_figs *sf, double *stepping,
+                     double *total)
+{
+    double t = 0.0;
+    for (int i = 0; i < nk; i++)
+        t += 4e-9 * ((double)sf->drive_steps[i] * kf[i].drive_bound +
+                     (double)sf->probe_steps[i] * kf[i].probe_bound);
+    *stepping = t;
+    *total = t + sf->network + sf->gram + sf->solve + sf->classify;
+}
+
 static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const sweep_figs *sf,
                          const sweep_figs *base, const task_figs *tk, int quick)
 {
     const double per_cell = sf != NULL ? sf->total / (double)sf->cells : NAN;
     const double cpu_per_cell = sf != NULL ? sf->cpu / (double)sf->cells : NAN;
+    double bound_steps = NAN, bound_total = NAN;
+    if (sf != NULL)
+        at_bound(kf, nk, sf, &bound_steps, &bound_total);
+    const double bound_ratio = sf != NULL && sf->numpy_done
+                                   ? sf->numpy_cpu_per_cell / (bound_total / (double)sf->cells)
+                                   : NAN;
     if (json) {
         fprintf(f, "{\n  \"quick\": %s,\n  \"kernels\": [\n", quick ? "true" : "false");
         for (int i = 0; i < nk; i++) {
@@ -604,6 +641,10 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 sf->numpy_cpu_per_cell, cpu_per_cell,
                 sf->numpy_done ? sf->numpy_cpu_per_cell / cpu_per_cell : NAN,
                 sf->numpy_done ? sf->numpy_per_cell / per_cell : NAN);
+        fprintf(f,
+                "  \"at_bound\": {\"stepping_seconds\": %.3f, \"stepping_seconds_measured\": "
+                "%.3f, \"seconds\": %.3f, \"throughput_ratio_cpu\": %.2f},\n",
+                bound_steps, sf->drive + sf->probes, bound_total, bound_ratio);
         for (int a = 0; a < CX_BENCH_AXES; a++)
             fprintf(f,
                     "  \"%s\": {\"cells\": %lld, \"probe_seconds\": {\"grouped\": %.3f, "
@@ -677,6 +718,15 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 sf->numpy_drive / sf->numpy_done, sf->numpy_gram / sf->numpy_done,
                 sf->numpy_probes / sf->numpy_done, sf->coexist_same_cells,
                 sf->numpy_cpu_per_cell / cpu_per_cell, sf->numpy_per_cell / per_cell);
+    fprintf(f,
+            "at the bound: drive and probe steps %.2f s (measured %.2f s); with the other stages "
+            "as measured the sweep would take %.2f s, %.3f s per cell",
+            bound_steps, sf->drive + sf->probes, bound_total, bound_total / (double)sf->cells);
+    if (sf->numpy_done)
+        fprintf(f, ": at most %.1fx the NumPy script's throughput (CPU) with these steps\n",
+                bound_ratio);
+    else
+        fprintf(f, "\n");
     for (int a = 0; a < CX_BENCH_AXES; a++)
         fprintf(f,
                 "%s (%lld cells of one network, own drive each, no blend axis): probes %.2f s "
@@ -722,9 +772,8 @@ int main(int argc, char **argv)
     int *lf = NULL, *lp = NULL;
     double *tf = NULL, *tp = NULL;
     const int nk = o.quick ? 1 : 2;
-    const cx_idx sizes[2] = {1000, 500};
     for (int i = 0; i < nk; i++)
-        CX_TRY(kernels(sizes[i], o.quick, &kf[i]));
+        CX_TRY(kernels(bench_sizes[i], o.quick, &kf[i]));
     if (o.kernels_only) {
         print_report(stdout, 0, kf, nk, NULL, NULL, NULL, o.quick);
         if (o.json != NULL) {

@@ -108,6 +108,10 @@ int cx_cell_compute_group(cx_cell_ws *ws, const cx_cell_params *const *p, const 
 void cx_cell_ws_counts(const cx_cell_ws *ws, cx_cell_counts *c /* out */);
 /* How many closed-loop runs of this workspace ended early on a fixed point (probe.early_stop). */
 int64_t cx_cell_ws_settled(const cx_cell_ws *ws);
+/* The work of the stepping kernels in this workspace so far, in RK4 steps times nodes: the
+ * open-loop drives (training, washout included, and the drives to random starts) and the
+ * closed-loop runs (each to where it ended). The Lyapunov estimate is not counted. */
+void cx_cell_ws_steps(const cx_cell_ws *ws, int64_t *drive /* out */, int64_t *probe /* out */);
 
 /* Check, before any work, that a dump can be written to `path`: it must not exist (unless
  * `overwrite`) and its directory must exist. CX_ERR_INVALID with a message otherwise. */

@@ -88,6 +88,20 @@ const char *cx_status_name(int code);
                      (size_t)(n) * sizeof(*(ptr)));                                                \
     } while (0)
 
+/* Room for n objects in a buffer `ptr` that holds `cap` of them (a reused workspace buffer):
+ * when it is too small, free it and allocate n, contents not kept, or raise CX_ERR_NOMEM (ptr
+ * then NULL and cap 0). Needs <stdlib.h>. */
+#define CX_RESERVE(ptr, cap, n)                                                                    \
+    do {                                                                                           \
+        if ((cap) < (n)) {                                                                         \
+            free(ptr);                                                                             \
+            (ptr) = NULL;                                                                          \
+            (cap) = 0;                                                                             \
+            CX_ALLOC(ptr, n);                                                                      \
+            (cap) = (n);                                                                           \
+        }                                                                                          \
+    } while (0)
+
 /* Zeroed variant of CX_ALLOC. */
 #define CX_CALLOC(ptr, n)                                                                          \
     do {                                                                                           \

@@ -134,6 +134,12 @@ int64_t cx_cell_ws_settled(const cx_cell_ws *ws)
     return ws->settled;
 }
 
+void cx_cell_ws_steps(const cx_cell_ws *ws, int64_t *drive, int64_t *probe)
+{
+    *drive = ws->drive_node_steps;
+    *probe = ws->probe_node_steps;
+}
+
 /* Stage 1: M (unscaled) and its spectral radius, keyed by the network parameters. */
 static int stage_network(cx_cell_ws *ws, const cx_cell_params *p)
 {
@@ -306,6 +312,7 @@ static int stage_drive(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservo
     for (int k = 0; k < p->ntasks; k++)
         CX_TRY(cx_res_drive(ws->rws, res, ws->series[k], p->train.dt, ws->wash, ws->train,
                             p->train.stride, ws->r_end[k], ws->g[k], ws->c[k]));
+    ws->drive_node_steps += (int64_t)p->ntasks * (int64_t)(ws->wash + ws->train) * (int64_t)n;
     t->drive = cx_clock_mono() - t0;
     t->gram = cx_res_ws_gram_seconds(ws->rws) - g0;
     ws->nfeat = nf;
@@ -340,21 +347,9 @@ static int ensure_readouts(cx_cell_ws *ws)
 {
     int rc = CX_OK;
     const cx_idx need = CX_CELL_GROUP * ws->nfeat * ws->dim;
-    if (ws->w_out_cap < need) {
-        free(ws->w_out);
-        ws->w_out = NULL;
-        ws->w_out_cap = 0;
-        CX_ALLOC(ws->w_out, need);
-        ws->w_out_cap = need;
-    }
+    CX_RESERVE(ws->w_out, ws->w_out_cap, need);
     const cx_idx nval = CX_CELL_GROUP * (ws->m0.nnz > 0 ? ws->m0.nnz : 1);
-    if (ws->group_val_cap < nval) {
-        free(ws->group_val);
-        ws->group_val = NULL;
-        ws->group_val_cap = 0;
-        CX_ALLOC(ws->group_val, nval);
-        ws->group_val_cap = nval;
-    }
+    CX_RESERVE(ws->group_val, ws->group_val_cap, nval);
 done:
     return rc;
 }
@@ -374,13 +369,7 @@ static int ensure_run_buffers(cx_cell_ws *ws, const cx_cell_params *p, int nruns
         CX_ALLOC(ws->truth, len);
         ws->y_cap = (cx_idx)nruns * len;
     }
-    if (ws->run_r_cap < (cx_idx)nruns * p->net.nodes) {
-        free(ws->run_r);
-        ws->run_r = NULL;
-        ws->run_r_cap = 0;
-        CX_ALLOC(ws->run_r, (cx_idx)nruns * p->net.nodes);
-        ws->run_r_cap = (cx_idx)nruns * p->net.nodes;
-    }
+    CX_RESERVE(ws->run_r, ws->run_r_cap, (cx_idx)nruns * p->net.nodes);
     if (ws->run_ptr_cap < nruns) {
         free(ws->run_ptr);
         free(ws->run_w);
@@ -457,8 +446,9 @@ static int run_start(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoir
         for (int d = 0; d < p->dim; d++)
             pt[d] = cx_rng_range(&rng, lo[d], hi[d]);
         memset(r, 0, (size_t)n * sizeof *r);
-        CX_TRY(cx_res_drive_constant(ws->rws, res, pt, p->train.dt,
-                                     cx_cell_steps(p->probe.drive_time, p->train.dt), r));
+        const cx_idx steps = cx_cell_steps(p->probe.drive_time, p->train.dt);
+        CX_TRY(cx_res_drive_constant(ws->rws, res, pt, p->train.dt, steps, r));
+        ws->drive_node_steps += (int64_t)steps * (int64_t)n;
     }
 done:
     return rc;
@@ -630,6 +620,7 @@ static int cell_judge(cx_cell_ws *ws, const cx_cell_params *p, const cx_reservoi
         ws->counts.probes++;
         if (settled_at[j] >= 0)
             ws->settled++;
+        ws->probe_node_steps += (int64_t)steps_done[j] * (int64_t)p->net.nodes;
         double t0 = cx_clock_mono();
         cx_idx n_total = steps_done[j] + 1;
         cx_idx tail = ps->n_tail < n_total ? ps->n_tail : n_total;

@@ -95,6 +95,9 @@ struct cx_cell_ws {
     double *kept_start; /* nruns x n: the reservoir state each run started from */
     cx_cell_counts counts;
     int64_t settled; /* closed-loop runs ended early on a fixed point */
+    /* RK4 steps times nodes taken by the open-loop drives (training and random starts) and by
+     * the closed-loop runs; the Lyapunov estimate is not counted */
+    int64_t drive_node_steps, probe_node_steps;
 };
 
 #endif

@@ -342,13 +342,7 @@ static int block_values(cx_res_ws *ws, cx_reservoir *rv, cx_csr *mv, const doubl
         return CX_OK;
     }
     const cx_idx nnz = mv->nnz;
-    if (ws->bval_cap < nnz * w) {
-        free(ws->bval_buf);
-        ws->bval_buf = NULL;
-        ws->bval_cap = 0;
-        CX_ALLOC(ws->bval_buf, nnz * w);
-        ws->bval_cap = nnz * w;
-    }
+    CX_RESERVE(ws->bval_buf, ws->bval_cap, nnz * w);
     for (cx_idx p = 0; p < nnz; p++)
         for (int c = 0; c < w; c++)
             ws->bval_buf[p * w + c] = vcol[c < nb ? c : 0][p];
