@@ -18,7 +18,9 @@
  *    values x 2 spectral radii x 2 seeds) in grid order in one workspace, seconds per stage and
  *    cells per core-second (process CPU time, the fair measure on a shared machine); then K
  *    sample cells spread over the grid by the NumPy script, and the ratio of CPU seconds per
- *    cell.
+ *    cell. Then the sweep as it would run with every drive and probe step it took (early stops
+ *    included) at the bound of part 2 and the other stages as measured, and the largest ratio to
+ *    the NumPy script that this allows: what faster kernels alone could reach.
  * --quick: a reduced sweep and shorter runs for a smoke run of well under a minute. --kernels:
  * parts 1 and 2 only, at both sizes (15 s to a minute). Timings are
  * wall clock on a shared machine: compare ratios measured in one run, not absolute figures.
