@@ -739,6 +739,44 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                 tk[a].cpu[1] / tk[a].cpu[0], tk[a].labels_same ? "yes" : "NO");
 }
 
+/* The JSON report into `path`. A figure not measured on this machine (NaN, such as the 8-lane
+ * gather figures on a CPU without AVX-512, or a ratio without NumPy cells) is written as null,
+ * since JSON has no NaN. */
+static int write_json(const char *path, const kernel_figs *kf, int nk, const sweep_figs *sf,
+                      const sweep_figs *base, const task_figs *tk, int quick)
+{
+    int rc = CX_OK;
+    char *text = NULL;
+    size_t len = 0;
+    FILE *f = NULL, *mem = open_memstream(&text, &len);
+    CX_REQUIRE(mem != NULL, CX_ERR_NOMEM, "bench: no memory for the JSON report");
+    print_report(mem, 1, kf, nk, sf, base, tk, quick);
+    CX_REQUIRE(fclose(mem) == 0, CX_ERR_NOMEM, "bench: no memory for the JSON report");
+    f = fopen(path, "w");
+    CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", path);
+    static const char *const bad[] = {": -nan", ": nan", ": -inf", ": inf"};
+    for (size_t i = 0; i < len;) {
+        size_t skip = 0;
+        for (int b = 0; b < 4 && skip == 0; b++)
+            if (strncmp(text + i, bad[b], strlen(bad[b])) == 0)
+                skip = strlen(bad[b]);
+        if (skip > 0) {
+            fputs(": null", f);
+            i += skip;
+        } else {
+            fputc(text[i++], f);
+        }
+    }
+    rc = fclose(f) == 0 ? CX_OK : CX_ERR_IO;
+    f = NULL;
+    CX_REQUIRE(rc == CX_OK, CX_ERR_IO, "bench: error writing %s", path);
+done:
+    if (f != NULL)
+        fclose(f);
+    free(text);
+    return rc;
+}
+
 int main(int argc, char **argv)
 {
     options o = {0, 0, NULL, -1};
@@ -778,12 +816,8 @@ int main(int argc, char **argv)
         CX_TRY(kernels(bench_sizes[i], o.quick, &kf[i]));
     if (o.kernels_only) {
         print_report(stdout, 0, kf, nk, NULL, NULL, NULL, o.quick);
-        if (o.json != NULL) {
-            FILE *f = fopen(o.json, "w");
-            CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
-            print_report(f, 1, kf, nk, NULL, NULL, NULL, o.quick);
-            CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
-        }
+        if (o.json != NULL)
+            CX_TRY(write_json(o.json, kf, nk, NULL, NULL, NULL, o.quick));
         goto done;
     }
     CX_TRY(make_study(&o, tanh_names[CX_BENCH_FAST], "true", &fast));
@@ -804,12 +838,8 @@ int main(int argc, char **argv)
     if (k > 0)
         CX_TRY(run_numpy(fast, &o, k, &sf));
     print_report(stdout, 0, kf, nk, &sf, &base, tk, o.quick);
-    if (o.json != NULL) {
-        FILE *f = fopen(o.json, "w");
-        CX_REQUIRE(f != NULL, CX_ERR_IO, "bench: cannot write %s", o.json);
-        print_report(f, 1, kf, nk, &sf, &base, tk, o.quick);
-        CX_REQUIRE(fclose(f) == 0, CX_ERR_IO, "bench: error writing %s", o.json);
-    }
+    if (o.json != NULL)
+        CX_TRY(write_json(o.json, kf, nk, &sf, &base, tk, o.quick));
 done:
     free(tp);
     free(tf);
