@@ -58,8 +58,7 @@ def main():
             check("the kernel record has its figures", all(w in k[0] for w in want) if k else False)
             nums = []
             figures(doc, "", nums)
-            bad = [p for p, v in nums if not (math.isfinite(v) and v >= 0)
-                   or (v == 0 and not p.endswith(("vector_lanes", "nodes")))]
+            bad = [p for p, v in nums if not (math.isfinite(v) and v > 0)]
             check("every figure is positive and finite", not bad and len(nums) > 20,
                   "%d figures; bad: %s" % (len(nums), bad[:5]))
     bad_opt = subprocess.run([bench, "--no-such-option"], capture_output=True, text=True)

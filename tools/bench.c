@@ -767,9 +767,9 @@ static int write_json(const char *path, const kernel_figs *kf, int nk, const swe
             fputc(text[i++], f);
         }
     }
-    rc = fclose(f) == 0 ? CX_OK : CX_ERR_IO;
+    const int closed = fclose(f);
     f = NULL;
-    CX_REQUIRE(rc == CX_OK, CX_ERR_IO, "bench: error writing %s", path);
+    CX_REQUIRE(closed == 0, CX_ERR_IO, "bench: error writing %s", path);
 done:
     if (f != NULL)
         fclose(f);
