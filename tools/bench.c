@@ -666,13 +666,14 @@ static void print_report(FILE *f, int json, const kernel_figs *kf, int nk, const
                     k->drive[mode], k->probe[mode], k->tanh_ns[mode]);
         for (int h = 0; h < (k->lanes > 4 ? 2 : 1); h++) {
             const double *pb = h ? k->probe_batch4 : k->probe_batch;
+            const int lanes = h ? 4 : k->lanes;
             fprintf(f, "| %lld | %s, batched B = 1/2/4/8/16, %d lanes | | ", (long long)k->n,
-                    tanh_names[CX_BENCH_FAST], h ? 4 : k->lanes);
+                    tanh_names[CX_BENCH_FAST], lanes);
             for (int q = 0; q < CX_BENCH_NB; q++)
                 fprintf(f, "%s%.2f", q ? " / " : "", pb[q]);
             /* at 4 lanes the fused kernel takes up to 8 runs and the cells never form a block of
              * 16 (cx_res_batch_runs), so that figure is the generic kernel's */
-            fprintf(f, "%s | |\n", h || k->lanes == 4 ? " (B = 16: generic kernel, not used)" : "");
+            fprintf(f, "%s | |\n", lanes == 4 ? " (B = 16: generic kernel, not used)" : "");
         }
         if (k->lanes == 8)
             fprintf(f,
